@@ -1,0 +1,3 @@
+"""planner: ward capacity planning under uncertain demand."""
+
+__version__ = "0.1.0"

@@ -1,0 +1,86 @@
+"""Ward settings: what the scenario file's ``[beds]``, ``[stay]`` and ``[staffing]`` tables resolve to.
+
+Times of day are hours from midnight (0-24); dates are calendar days; stays are in days.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from datetime import date
+
+
+@dataclass(frozen=True)
+class BedChange:
+    """Open (``change`` > 0, e.g. escalation beds) or close (``change`` < 0) beds on every day
+    from ``start`` to ``end`` inclusive. Changes take effect at 00:00 of ``start`` and end at
+    24:00 of ``end``."""
+
+    start: date
+    end: date
+    change: int
+
+
+@dataclass(frozen=True)
+class Shift:
+    """One shift of the daily rota. ``start_hour``/``end_hour`` in hours from midnight; a shift
+    whose end is not after its start runs past midnight (night 19 -> 7). ``roster`` is the
+    number of registered nurses rostered on the shift for Monday..Sunday (7 values)."""
+
+    name: str
+    start_hour: float
+    end_hour: float
+    patients_per_nurse: float
+    roster: tuple[int, int, int, int, int, int, int]
+
+    @property
+    def length_hours(self) -> float:
+        return (self.end_hour - self.start_hour) % 24 or 24.0
+
+
+@dataclass(frozen=True)
+class RosterOverride:
+    """Roster ``nurses`` on shift ``shift`` for every day from ``start`` to ``end`` inclusive
+    (a shift belongs to the day on which it starts)."""
+
+    start: date
+    end: date
+    shift: str
+    nurses: int
+
+
+@dataclass(frozen=True)
+class StaffingSettings:
+    shifts: tuple[Shift, ...] = (
+        Shift("day", 7.0, 19.0, 4.0, (5, 5, 5, 5, 5, 5, 5)),
+        Shift("night", 19.0, 7.0, 7.0, (3, 3, 3, 3, 3, 3, 3)),
+    )
+    minimum_nurses: int = 2
+    overrides: tuple[RosterOverride, ...] = ()
+
+
+@dataclass(frozen=True)
+class StaySettings:
+    """Length of stay. ``model``: "empirical" (resample the episode stays), "lognormal",
+    "gamma", "weibull", "exponential", or "best" (the parametric fit with the lowest AIC).
+    ``mean``/``sd`` (days) give the distribution directly instead of fitting it to episodes.
+    ``change_days`` (e.g. -0.5) and ``scale`` (e.g. 0.9) change the mean stay; both are applied
+    as one rescaling of the whole distribution, which keeps its shape (coefficient of variation).
+    """
+
+    model: str = "empirical"
+    mean: float | None = None
+    sd: float | None = None
+    change_days: float = 0.0
+    scale: float = 1.0
+
+
+@dataclass(frozen=True)
+class WardSettings:
+    """``beds``: base number of beds open. ``policy``: "wait" (a patient with no free bed waits,
+    first come first served, for the next one) or "divert" (placed elsewhere and lost to this
+    ward)."""
+
+    beds: int = 28
+    bed_changes: tuple[BedChange, ...] = ()
+    policy: str = "wait"
+    staffing: StaffingSettings = field(default_factory=StaffingSettings)

@@ -1,0 +1,1 @@
+"""Bundled demo scenarios, installed as the data package ``planner.demo``."""
