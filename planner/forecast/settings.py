@@ -56,3 +56,10 @@ class ForecastSettings:
     backtest_origins: int = 26
     backtest_every: int = 7
     demand: DemandAdjustment = field(default_factory=DemandAdjustment)
+    # Added by the forecast engine (optional, with defaults):
+    # backtest_paths: sample paths per origin and strategy in the backtest (fewer than the
+    #     forecast's paths, for speed; the smaller of this and n_paths is used).
+    # refit_series: number of bootstrap histories refitted when refit=True; path i uses
+    #     refit i mod refit_series.
+    backtest_paths: int = 200
+    refit_series: int = 50

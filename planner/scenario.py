@@ -1,0 +1,273 @@
+"""Reading scenario files (TOML) into validated, immutable settings.
+
+A scenario file describes one ward plan; its keys are listed, with units and defaults, in
+:mod:`planner.schema` and docs/scenario.md. ``extends = "other.toml"`` starts from another
+file: tables merge key by key, arrays of tables (``[[beds.change]]`` ...) are replaced whole.
+Paths are resolved relative to the file that names them.
+"""
+
+from __future__ import annotations
+
+import tomllib
+from dataclasses import dataclass, field
+from datetime import date
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+from planner.errors import PlannerError
+from planner.forecast.settings import DemandAdjustment, ForecastSettings, Surge
+from planner.schema import TABLES, TOP, validate
+from planner.simulate.settings import (
+    BedChange,
+    RosterOverride,
+    Shift,
+    StaffingSettings,
+    StaySettings,
+    WardSettings,
+)
+
+DEMO_NAME = "baseline.toml"
+
+
+@dataclass(frozen=True)
+class Costs:
+    """Unit costs (any one currency): per open bed-day, per rostered nurse shift, per
+    diverted patient, per patient-hour spent waiting for a bed."""
+
+    bed_day: float = 0.0
+    nurse_shift: float = 0.0
+    diverted_patient: float = 0.0
+    waiting_hour: float = 0.0
+
+
+@dataclass(frozen=True)
+class Scenario:
+    """A resolved scenario: every key has its value (given, inherited or default)."""
+
+    name: str
+    source: Path
+    description: str
+    admissions_file: Path | None
+    episodes_file: Path | None
+    horizon_weeks: int
+    start: date | None
+    paths: int
+    seed: int
+    forecast: ForecastSettings
+    stay: StaySettings
+    ward: WardSettings
+    costs: Costs
+    resolved: dict[str, Any] = field(repr=False, compare=False)
+
+    @property
+    def horizon_days(self) -> int:
+        return 7 * self.horizon_weeks
+
+
+def demo_scenario_path() -> Path:
+    """The bundled demo scenario: installed with the package as ``planner.demo``, or the
+    scenarios/ folder beside the package when running from a source checkout."""
+    try:
+        return Path(str(resources.files("planner.demo").joinpath(DEMO_NAME)))
+    except ModuleNotFoundError:
+        return Path(__file__).resolve().parents[1] / "scenarios" / DEMO_NAME
+
+
+def _read_toml(path: Path) -> dict[str, Any]:
+    if not path.is_file():
+        raise PlannerError(f"{path}: scenario file not found")
+    try:
+        with path.open("rb") as handle:
+            return tomllib.load(handle)
+    except tomllib.TOMLDecodeError as error:
+        raise PlannerError(f"{path}: not valid TOML ({error})") from None
+    except UnicodeDecodeError:
+        raise PlannerError(f"{path}: not a UTF-8 text file") from None
+
+
+def _absolute_paths(document: dict[str, Any], folder: Path) -> None:
+    """Make path-valued keys absolute, relative to the file that names them."""
+    if "extends" in document:
+        document["extends"] = str((folder / document["extends"]).resolve())
+    history = document.get("history", {})
+    for name in ("admissions", "episodes"):
+        if name in history:
+            history[name] = str((folder / history[name]).resolve())
+
+
+def _merge(base: dict[str, Any], override: dict[str, Any]) -> dict[str, Any]:
+    merged = dict(base)
+    for name, value in override.items():
+        if isinstance(value, dict) and isinstance(merged.get(name), dict):
+            merged[name] = _merge(merged[name], value)
+        else:
+            merged[name] = value
+    return merged
+
+
+def read_document(path: Path, _seen: tuple[Path, ...] = ()) -> dict[str, Any]:
+    """The merged document of ``path`` and the files it extends, each validated."""
+    path = Path(path).resolve()
+    if path in _seen:
+        chain = " -> ".join(p.name for p in (*_seen, path))
+        raise PlannerError(f"{path}: extends: cycle ({chain})")
+    document = _read_toml(path)
+    validate(document, str(path))
+    _absolute_paths(document, path.parent)
+    parent = document.pop("extends", None)
+    if parent is None:
+        return document
+    return _merge(read_document(Path(parent), (*_seen, path)), document)
+
+
+def _hours(text: str) -> float:
+    hours, minutes = text.split(":")
+    return int(hours) + int(minutes) / 60.0
+
+
+def _table(document: dict[str, Any], name: str) -> dict[str, Any]:
+    """Values of one table with defaults filled in."""
+    spec = next(table for table in TABLES if table.name == name)
+    given = document
+    for part in name.split("."):
+        given = given.get(part, {})
+    return {key.name: given.get(key.name, key.default) for key in spec.keys}
+
+
+def _items(document: dict[str, Any], name: str) -> list[dict[str, Any]]:
+    root, child = name.split(".")
+    return list(document.get(root, {}).get(child, []))
+
+
+def _check_range(where: str, start: date, end: date) -> None:
+    if end < start:
+        raise PlannerError(f"{where}: end {end} is before start {start}")
+
+
+def _shifts(document: dict[str, Any], where: str) -> tuple[Shift, ...]:
+    items = _items(document, "staffing.shift")
+    if not items:
+        return StaffingSettings().shifts
+    shifts = tuple(
+        Shift(
+            item["name"],
+            _hours(item["start"]),
+            _hours(item["end"]),
+            float(item["patients_per_nurse"]),
+            tuple(item["roster"]),
+        )
+        for item in items
+    )
+    names = [shift.name for shift in shifts]
+    if len(set(names)) != len(names):
+        raise PlannerError(f"{where}: staffing.shift: shift names must differ ({names})")
+    covered = [0] * (24 * 60)
+    for shift in shifts:
+        first = round(shift.start_hour * 60)
+        for minute in range(first, first + round(shift.length_hours * 60)):
+            covered[minute % len(covered)] += 1
+    if max(covered) > 1 or min(covered) == 0:
+        problem = "overlap" if max(covered) > 1 else "leave hours uncovered"
+        # The first minute that goes wrong, just after one that is right (circularly).
+        at = next(i for i, n in enumerate(covered) if n != 1 and covered[i - 1] == 1)
+        raise PlannerError(
+            f"{where}: staffing.shift: shifts {problem} (at {at // 60:02d}:{at % 60:02d}); "
+            f"they must cover the 24 hours exactly once"
+        )
+    return shifts
+
+
+def _ward(document: dict[str, Any], where: str) -> WardSettings:
+    beds = _table(document, "beds")
+    changes = []
+    for number, item in enumerate(_items(document, "beds.change"), start=1):
+        _check_range(f"{where}: beds.change[{number}]", item["start"], item["end"])
+        changes.append(BedChange(item["start"], item["end"], item["change"]))
+    shifts = _shifts(document, where)
+    names = {shift.name for shift in shifts}
+    overrides = []
+    for number, item in enumerate(_items(document, "staffing.override"), start=1):
+        at = f"{where}: staffing.override[{number}]"
+        _check_range(at, item["start"], item["end"])
+        if item["shift"] not in names:
+            raise PlannerError(
+                f"{at}.shift: no shift named {item['shift']!r} (shifts: {', '.join(sorted(names))})"
+            )
+        overrides.append(RosterOverride(item["start"], item["end"], item["shift"], item["nurses"]))
+    staffing = StaffingSettings(
+        shifts, _table(document, "staffing")["minimum_nurses"], tuple(overrides)
+    )
+    return WardSettings(beds["base"], tuple(changes), beds["policy"], staffing)
+
+
+def _forecast(document: dict[str, Any], where: str) -> ForecastSettings:
+    values = _table(document, "forecast")
+    surges = []
+    for number, item in enumerate(_items(document, "demand.surge"), start=1):
+        _check_range(f"{where}: demand.surge[{number}]", item["start"], item["end"])
+        surges.append(Surge(item["start"], item["end"], float(item["factor"])))
+    demand = DemandAdjustment(float(_table(document, "demand")["growth"]), tuple(surges))
+    return ForecastSettings(
+        strategy=values["strategy"],
+        max_lag=values["max_lag"],
+        criterion=values["criterion"],
+        order=values["order"],
+        weekday=values["weekday"],
+        annual=values["annual"],
+        fourier_pairs=values["fourier_pairs"],
+        trend=values["trend"],
+        holiday_dates=tuple(values["holidays"]),
+        holiday_country=values["holiday_country"],
+        residuals=values["residuals"],
+        refit=values["refit"],
+        backtest_origins=values["backtest_origins"],
+        backtest_every=values["backtest_every_days"],
+        demand=demand,
+    )
+
+
+def _stay(document: dict[str, Any], where: str) -> StaySettings:
+    values = _table(document, "stay")
+    if values["sd"] is not None and values["mean"] is None:
+        raise PlannerError(f"{where}: stay.sd: given without stay.mean")
+    return StaySettings(
+        values["model"],
+        values["mean"],
+        values["sd"],
+        float(values["change_days"]),
+        float(values["scale"]),
+    )
+
+
+def load_scenario(path: str | Path | None = None) -> Scenario:
+    """Read, merge and validate a scenario file (default: the bundled demo)."""
+    path = demo_scenario_path() if path is None else Path(path)
+    document = read_document(path)
+    where = str(path)
+    top = {key.name: document.get(key.name, key.default) for key in TOP}
+    history = _table(document, "history")
+    if history["admissions"] is None and history["episodes"] is None:
+        raise PlannerError(f"{where}: history: give history.episodes or history.admissions")
+    stay = _stay(document, where)
+    if stay.mean is None and history["episodes"] is None:
+        raise PlannerError(
+            f"{where}: stay: without history.episodes, give stay.mean "
+            f"(and stay.sd) so stays can be simulated"
+        )
+    return Scenario(
+        name=top["name"] or Path(path).stem,
+        source=Path(path).resolve(),
+        description=top["description"],
+        admissions_file=Path(history["admissions"]) if history["admissions"] else None,
+        episodes_file=Path(history["episodes"]) if history["episodes"] else None,
+        horizon_weeks=top["horizon_weeks"],
+        start=top["start"],
+        paths=top["paths"],
+        seed=top["seed"],
+        forecast=_forecast(document, where),
+        stay=stay,
+        ward=_ward(document, where),
+        costs=Costs(**{k: float(v) for k, v in _table(document, "costs").items()}),
+        resolved=document,
+    )

@@ -1,0 +1,154 @@
+"""Scenario files: defaults, extends, and one-line errors naming the key path."""
+
+from __future__ import annotations
+
+import shutil
+from datetime import date
+from pathlib import Path
+
+import pytest
+
+from planner.errors import PlannerError
+from planner.scenario import demo_scenario_path, load_scenario
+from planner.schema import TABLES, TOP, document
+
+DEMO = Path(__file__).resolve().parents[1] / "scenarios"
+
+
+def scenario(tmp_path, text, name="plan.toml"):
+    (tmp_path / "ward.csv").write_text("date,admissions\n2026-01-01,3\n")
+    path = tmp_path / name
+    stay = "" if "[stay]" in text else "[stay]\nmean = 5.0\nsd = 4.0\n"
+    path.write_text(text + '\n[history]\nadmissions = "ward.csv"\n' + stay)
+    return path
+
+
+def test_demo_scenarios_load():
+    assert demo_scenario_path().name == "baseline.toml"
+    base = load_scenario()
+    assert base.ward.beds == 28
+    assert [shift.name for shift in base.ward.staffing.shifts] == ["day", "night"]
+    winter = load_scenario(DEMO / "winter_escalation.toml")
+    assert winter.ward.bed_changes[0].change == 4
+    assert winter.ward.staffing.shifts == base.ward.staffing.shifts  # inherited
+    assert winter.episodes_file == base.episodes_file  # path resolved in the base file
+    assert load_scenario(DEMO / "shorter_stays.toml").stay.change_days == -0.5
+
+
+def test_defaults(tmp_path):
+    plan = load_scenario(scenario(tmp_path, ""))
+    assert (plan.horizon_weeks, plan.paths, plan.horizon_days) == (13, 1000, 91)
+    assert plan.forecast.max_lag == 28 and plan.forecast.strategy == "auto"
+    assert plan.ward.policy == "wait" and plan.ward.staffing.minimum_nurses == 2
+    assert plan.name == "plan"
+
+
+def test_extends_overrides_only_what_changes(tmp_path):
+    scenario(tmp_path, "paths = 50\n[beds]\nbase = 20\npolicy = 'divert'\n", name="base.toml")
+    child = tmp_path / "child.toml"
+    child.write_text('extends = "base.toml"\n[beds]\nbase = 24\n')
+    plan = load_scenario(child)
+    assert (plan.ward.beds, plan.ward.policy, plan.paths) == (24, "divert", 50)
+
+
+def test_extends_cycle_is_refused(tmp_path):
+    (tmp_path / "a.toml").write_text('extends = "b.toml"\n')
+    (tmp_path / "b.toml").write_text('extends = "a.toml"\n')
+    with pytest.raises(PlannerError, match=r"extends: cycle \(a.toml -> b.toml -> a.toml\)"):
+        load_scenario(tmp_path / "a.toml")
+
+
+@pytest.mark.parametrize(
+    ("text", "message"),
+    [
+        ("horizon_weeks = 0\n", "horizon_weeks: must be >= 1"),
+        ("paths = -5\n", "paths: must be >= 1"),
+        ("paths = 'many'\n", "paths: must be a whole number"),
+        ("[beds]\nbase = 0\n", "beds.base: must be >= 1"),
+        ("[beds]\nbeds = 3\n", "beds.beds: unknown key (did you mean 'base'?)"),
+        ("[bed]\nbase = 3\n", "bed: unknown key (did you mean 'beds'?)"),
+        ("[beds]\npolicy = 'queue'\n", "beds.policy: must be one of wait, divert"),
+        (
+            "[[beds.change]]\nstart = 2026-02-01\nend = 2026-01-01\nchange = 2\n",
+            "beds.change[1]: end 2026-01-01 is before start 2026-02-01",
+        ),
+        ("[[beds.change]]\nstart = 2026-02-01\nchange = 2\n", "beds.change[1].end: required"),
+        (
+            "[[staffing.shift]]\nname = 'day'\nstart = '07:00'\nend = '19:00'\n"
+            "patients_per_nurse = 0\nroster = [1,1,1,1,1,1,1]\n",
+            "staffing.shift[1].patients_per_nurse: must be > 0",
+        ),
+        (
+            "[[staffing.shift]]\nname = 'day'\nstart = '07:00'\nend = '19:00'\n"
+            "patients_per_nurse = 4\nroster = [1,1,1]\n",
+            "roster: must be a list of 7",
+        ),
+        (
+            "[[staffing.shift]]\nname = 'day'\nstart = '07:00'\nend = '19:00'\n"
+            "patients_per_nurse = 4\nroster = [1,1,1,1,1,1,1]\n",
+            "shifts leave hours uncovered (at 19:00)",
+        ),
+        (
+            "[[staffing.shift]]\nname = 'day'\nstart = '07:00'\nend = '20:00'\n"
+            "patients_per_nurse = 4\nroster = [1,1,1,1,1,1,1]\n"
+            "[[staffing.shift]]\nname = 'night'\nstart = '19:00'\nend = '07:00'\n"
+            "patients_per_nurse = 7\nroster = [1,1,1,1,1,1,1]\n",
+            "shifts overlap (at 19:00)",
+        ),
+        (
+            "[[staffing.override]]\nstart = 2026-01-01\nend = 2026-01-02\nshift = 'late'\n"
+            "nurses = 3\n",
+            "staffing.override[1].shift: no shift named 'late'",
+        ),
+        ("[forecast]\nstrategy = 'best'\n", "forecast.strategy: must be one of recursive"),
+        ("[stay]\nmean = 5.0\nscale = -1\n", "stay.scale: must be > 0"),
+        ("horizon_weeks = \n", "not valid TOML"),
+    ],
+)
+def test_bad_scenarios_name_the_key(tmp_path, text, message):
+    path = scenario(tmp_path, text)
+    with pytest.raises(PlannerError) as error:
+        load_scenario(path)
+    assert message in str(error.value)
+    assert str(path) in str(error.value)
+    assert "\n" not in str(error.value)
+
+
+def test_history_and_stays_needed(tmp_path):
+    path = tmp_path / "empty.toml"
+    path.write_text("paths = 10\n")
+    with pytest.raises(PlannerError, match="give history.episodes or history.admissions"):
+        load_scenario(path)
+
+
+def test_dates_and_hours_parsed(tmp_path):
+    plan = load_scenario(
+        scenario(
+            tmp_path,
+            "start = 2026-01-02\n[[staffing.shift]]\nname = 'long'\nstart = '08:30'\n"
+            "end = '08:30'\npatients_per_nurse = 5\nroster = [4,4,4,4,4,3,3]\n",
+        )
+    )
+    assert plan.start == date(2026, 1, 2)
+    shift = plan.ward.staffing.shifts[0]
+    assert (shift.start_hour, shift.length_hours, shift.roster[-1]) == (8.5, 24.0, 3)
+
+
+def test_every_key_documented():
+    text = document()
+    for key in TOP:
+        assert f"`{key.name}`" in text and key.doc
+    for table in TABLES:
+        assert table.name in text
+        for key in table.keys:
+            assert key.doc, f"{table.name}.{key.name} has no documentation"
+
+
+def test_docs_file_is_current():
+    docs = Path(__file__).resolve().parents[1] / "docs" / "scenario.md"
+    assert docs.read_text() == document() + "\n", "regenerate: python -m planner.schema"
+
+
+def test_copied_demo_runs_from_elsewhere(tmp_path):
+    shutil.copytree(DEMO, tmp_path / "copy")
+    assert load_scenario(tmp_path / "copy" / "baseline.toml").episodes_file.is_file()
