@@ -87,3 +87,143 @@ def check(scenario: Path | None) -> None:
 def main() -> None:
     """Console-script entry point."""
     cli(prog_name="planner")
+
+
+def _load(scenario_path: Path | None):
+    from planner.pipeline import load_history
+    from planner.scenario import load_scenario
+
+    scenario = load_scenario(scenario_path)
+    return scenario, load_history(scenario)
+
+
+def _target(out: Path | None, scenario, command: str) -> Path:
+    from planner.outputs import default_folder
+
+    return out if out is not None else default_folder(scenario.name, command)
+
+
+def _progress(label: str):
+    """A progress callback drawing a bar on stderr when it is a terminal, else None."""
+    stream = click.get_text_stream("stderr")
+    if not stream.isatty():
+        return None
+    state: dict[str, Any] = {}
+
+    def update(done: int, total: int) -> None:
+        if "bar" not in state:
+            state["bar"] = click.progressbar(length=total, label=label, file=stream)
+            state["bar"].__enter__()
+        state["bar"].update(done - state["bar"].pos)
+        if done >= total:
+            state["bar"].__exit__(None, None, None)
+
+    return update
+
+
+@cli.command()
+@scenario_argument
+@out_option
+@overwrite_option
+@paths_option
+@seed_option
+@user_errors
+def forecast(scenario: Path | None, out, overwrite, paths, seed) -> None:
+    """Forecast daily admissions as sample paths: forecast.csv and a fan chart."""
+    from planner.outputs import atomic_folder
+    from planner.pipeline import forecast_step
+    from planner.report.charts import admissions_fan
+    from planner.report.files import write_csv
+
+    plan, history = _load(scenario)
+    target = _target(out, plan, "forecast")
+    with atomic_folder(target, overwrite) as folder:
+        result = forecast_step(plan, history, paths or plan.paths, plan.seed if seed is None
+                               else seed)  # fmt: skip
+        table = result.table()
+        write_csv(table, folder / "forecast.csv")
+        (folder / "admissions.png").write_bytes(admissions_fan(history.admissions, table))
+    summary = result.summary
+    click.echo(f"AR order {summary.order} ({summary.criterion.upper()}), strategy "
+               f"{summary.strategy}; {len(table)} days from {history.start.date()}")  # fmt: skip
+    click.echo(f"wrote {target}/forecast.csv and admissions.png")
+
+
+@cli.command()
+@scenario_argument
+@out_option
+@overwrite_option
+@paths_option
+@seed_option
+@user_errors
+def backtest(scenario: Path | None, out, overwrite, paths, seed) -> None:
+    """Rolling-origin backtest of the forecast strategies: backtest.csv."""
+    from planner.outputs import atomic_folder
+    from planner.pipeline import backtest_step
+    from planner.report.files import write_csv
+
+    plan, history = _load(scenario)
+    target = _target(out, plan, "backtest")
+    with atomic_folder(target, overwrite) as folder:
+        result = backtest_step(plan, history, paths or plan.forecast.backtest_paths,
+                               plan.seed if seed is None else seed)  # fmt: skip
+        table = result.table.copy()
+        table["horizon_week"] = table["horizon_week"].map(lambda w: "all" if w == 0 else w)
+        write_csv(table, folder / "backtest.csv")
+    click.echo(table.to_string(index=False, float_format=lambda v: f"{v:.3f}"))
+    click.echo(f"wrote {target}/backtest.csv")
+
+
+@cli.command()
+@scenario_argument
+@out_option
+@overwrite_option
+@paths_option
+@seed_option
+@user_errors
+def simulate(scenario: Path | None, out, overwrite, paths, seed) -> None:
+    """Forecast and simulate the ward: daily.csv and shifts.csv."""
+    from planner.outputs import atomic_folder
+    from planner.pipeline import run_scenario
+    from planner.report.files import write_csv
+    from planner.simulate import summarise_daily, summarise_shifts
+
+    plan, _ = _load(scenario)
+    target = _target(out, plan, "simulate")
+    with atomic_folder(target, overwrite) as folder:
+        run = run_scenario(plan, paths, seed, _progress("simulating"))
+        write_csv(summarise_daily(run.ward), folder / "daily.csv")
+        write_csv(summarise_shifts(run.ward), folder / "shifts.csv")
+    patients = int(run.forecast.paths.sum())
+    click.echo(f"simulated {run.paths} paths, {patients} patients in "
+               f"{run.timings['simulate_s']:.1f} s")  # fmt: skip
+    click.echo(f"wrote {target}/daily.csv and shifts.csv")
+
+
+@cli.command()
+@scenario_argument
+@out_option
+@overwrite_option
+@paths_option
+@seed_option
+@user_errors
+def run(scenario: Path | None, out, overwrite, paths, seed) -> None:
+    """Forecast, simulate and report: weekly.csv, charts, report.html, run.json."""
+    from planner.outputs import atomic_folder
+    from planner.pipeline import run_scenario
+    from planner.report.run_report import headline, terminal_table, write_run_files
+    from planner.report.weekly import weekly_table
+    from planner.simulate import summarise_daily, summarise_shifts
+
+    plan, _ = _load(scenario)
+    target = _target(out, plan, "run")
+    with atomic_folder(target, overwrite) as folder:
+        result = run_scenario(plan, paths, seed, _progress("simulating"))
+        write_run_files(result, folder, summarise_daily(result.ward),
+                        summarise_shifts(result.ward))  # fmt: skip
+    click.echo(f"{plan.name}: {result.paths} paths from {result.history.start.date()}")
+    click.echo(terminal_table(weekly_table(result.weekly)))
+    click.echo(headline(result))
+    click.echo("Decision support only: staffing and capacity decisions follow local policy, "
+               "safe-staffing review and professional judgement.")  # fmt: skip
+    click.echo(f"wrote {target}/report.html")

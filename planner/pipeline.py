@@ -20,6 +20,10 @@ from planner.history import (
 )
 from planner.scenario import Scenario, load_scenario
 
+#: Recorded stays shorter than this (same-minute admission and discharge) are counted as
+#: this long, so every stay is positive: one minute, in days.
+MINIMUM_RECORDED_STAY_DAYS = 1.0 / (24 * 60)
+
 
 @dataclass(frozen=True)
 class WardHistory:
@@ -90,3 +94,139 @@ def check_scenario(path: Path | None) -> list[str]:
             f"ward at the start"
         )
     return lines
+
+
+@dataclass(frozen=True)
+class Streams:
+    """Independent random streams of a run, all from the scenario's one seed: the forecast
+    paths and the ward simulation (each path's own streams are spawned from the latter)."""
+
+    forecast: np.random.SeedSequence
+    ward: np.random.SeedSequence
+
+    @classmethod
+    def from_seed(cls, seed: int) -> Streams:
+        forecast, ward = np.random.SeedSequence(seed).spawn(2)
+        return cls(forecast, ward)
+
+
+def forecast_step(scenario: Scenario, history: WardHistory, paths: int, seed: int):
+    """Sample paths of daily admissions over the scenario's horizon."""
+    from planner.forecast import forecast_admissions
+
+    rng = np.random.default_rng(Streams.from_seed(seed).forecast)
+    return forecast_admissions(
+        history.admissions, scenario.forecast, scenario.horizon_days, paths, rng, history.start
+    )
+
+
+def backtest_step(scenario: Scenario, history: WardHistory, paths: int, seed: int):
+    """Rolling-origin backtest of the forecast strategies over the scenario's horizon."""
+    from planner.forecast import run_backtest
+
+    rng = np.random.default_rng(Streams.from_seed(seed).forecast)
+    return run_backtest(history.admissions, scenario.forecast, scenario.horizon_days, paths, rng)
+
+
+@dataclass(frozen=True)
+class WardInputs:
+    """What the simulation needs besides the arrival paths."""
+
+    stays: object  # planner.simulate.stays.StayDistribution
+    inpatients_elapsed: np.ndarray
+    hour_profile: np.ndarray
+
+
+def ward_inputs(scenario: Scenario, history: WardHistory) -> WardInputs:
+    """Length of stay, current inpatients and the hour-of-day profile from the history."""
+    from planner.simulate.arrivals import hour_profile
+    from planner.simulate.stay_fit import stay_distribution
+
+    stays = history.stays()
+    if stays is not None:
+        stays = np.maximum(stays, MINIMUM_RECORDED_STAY_DAYS)
+    admitted = None if history.episodes is None else history.episodes["admitted_at"]
+    return WardInputs(
+        stays=stay_distribution(scenario.stay, stays),
+        inpatients_elapsed=history.inpatients_elapsed(),
+        hour_profile=hour_profile(admitted),
+    )
+
+
+def simulate_step(
+    scenario: Scenario,
+    inputs: WardInputs,
+    arrivals: np.ndarray,
+    start: pd.Timestamp,
+    seed: int,
+    progress=None,
+    chunk: int = 100,
+):
+    """Simulate the ward for every arrival path, in chunks of paths (the result does not
+    depend on the chunk size); ``progress(done, total)`` is called after each chunk."""
+    from planner.simulate import simulate_ward
+    from planner.simulate.ward import WardResult
+
+    streams = Streams.from_seed(seed)
+    parts = []
+    total = arrivals.shape[0]
+    for first in range(0, total, chunk):
+        part = simulate_ward(
+            arrivals[first : first + chunk], start.date(), scenario.ward, inputs.stays,
+            inputs.inpatients_elapsed, inputs.hour_profile, streams.ward, first_path=first,
+        )  # fmt: skip
+        parts.append(part)
+        if progress is not None:
+            progress(min(first + chunk, total), total)
+    return WardResult(
+        daily=pd.concat([part.daily for part in parts], ignore_index=True),
+        shifts=pd.concat([part.shifts for part in parts], ignore_index=True),
+    )
+
+
+@dataclass(frozen=True)
+class RunResult:
+    """Everything one run produced, from the forecast to the weekly measures per path."""
+
+    scenario: Scenario
+    history: WardHistory
+    forecast: object  # planner.forecast.ForecastResult
+    inputs: WardInputs
+    ward: object  # planner.simulate.ward.WardResult
+    weekly: object  # planner.report.weekly.WeeklyPaths
+    paths: int
+    seed: int
+    timings: dict[str, float]
+
+
+def run_scenario(
+    scenario: Scenario,
+    paths: int | None = None,
+    seed: int | None = None,
+    progress=None,
+    forecast=None,
+) -> RunResult:
+    """Forecast, simulate and summarise one scenario. ``forecast`` reuses sample paths made
+    earlier with the same history and forecast settings (common random numbers)."""
+    import time
+
+    from planner.report.weekly import weekly_paths
+
+    paths = scenario.paths if paths is None else paths
+    seed = scenario.seed if seed is None else seed
+    timings: dict[str, float] = {}
+    clock = time.perf_counter()
+    history = load_history(scenario)
+    timings["read_history_s"] = time.perf_counter() - clock
+    clock = time.perf_counter()
+    if forecast is None:
+        forecast = forecast_step(scenario, history, paths, seed)
+    timings["forecast_s"] = time.perf_counter() - clock
+    clock = time.perf_counter()
+    inputs = ward_inputs(scenario, history)
+    ward = simulate_step(scenario, inputs, forecast.paths, history.start, seed, progress)
+    timings["simulate_s"] = time.perf_counter() - clock
+    clock = time.perf_counter()
+    weekly = weekly_paths(ward.daily, ward.shifts, history.start)
+    timings["summarise_s"] = time.perf_counter() - clock
+    return RunResult(scenario, history, forecast, inputs, ward, weekly, paths, seed, timings)

@@ -1,0 +1,133 @@
+"""Charts (PNG) for the reports. Each function takes tables and returns PNG bytes.
+
+Colours are plain blues and greys: the charts show probabilities and counts, not status
+codes. Fan charts shade the 50%, 80% and 90% central bands of the sample paths.
+"""
+
+from __future__ import annotations
+
+import io
+
+import matplotlib
+
+matplotlib.use("Agg")
+
+import matplotlib.dates as mdates  # noqa: E402
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+import pandas as pd  # noqa: E402
+
+BAND = "#3b6ea8"
+LINE = "#1f3d63"
+GREY = "#555555"
+BANDS = (("05", "95", 0.18), ("10", "90", 0.28), ("25", "75", 0.45))
+
+
+def _png(figure: plt.Figure) -> bytes:
+    buffer = io.BytesIO()
+    figure.tight_layout()
+    figure.savefig(buffer, format="png", dpi=110)
+    plt.close(figure)
+    return buffer.getvalue()
+
+
+def _date_axis(axes: plt.Axes) -> None:
+    axes.xaxis.set_major_locator(mdates.AutoDateLocator(maxticks=10))
+    axes.xaxis.set_major_formatter(mdates.DateFormatter("%d %b\n%Y"))
+    axes.grid(alpha=0.3)
+
+
+def _fan(axes: plt.Axes, dates, table: pd.DataFrame, prefix: str, label: str) -> None:
+    for low, high, alpha in BANDS:
+        axes.fill_between(
+            dates, table[f"{prefix}{low}"], table[f"{prefix}{high}"], color=BAND, alpha=alpha,
+            linewidth=0, label=f"{int(high) - int(low)}% of paths",
+        )  # fmt: skip
+    axes.plot(dates, table[f"{prefix}50"], color=LINE, linewidth=1.5, label=label)
+
+
+def admissions_fan(history: pd.Series, forecast: pd.DataFrame, weeks_of_history: int = 8) -> bytes:
+    """Recent daily admissions and the forecast bands (forecast.csv columns q05..q95)."""
+    figure, axes = plt.subplots(figsize=(10, 4))
+    recent = history.iloc[-7 * weeks_of_history :]
+    axes.plot(recent.index, recent.to_numpy(), color=GREY, linewidth=1, label="admissions")
+    dates = pd.to_datetime(forecast["date"])
+    _fan(axes, dates, forecast, "q", "forecast median")
+    axes.plot(dates, forecast["mean"], color=LINE, linewidth=1, linestyle="--", label="mean")
+    axes.set_ylabel("emergency admissions per day")
+    axes.set_title("Admissions: recent history and forecast")
+    axes.legend(loc="upper left", fontsize=8, ncol=3)
+    _date_axis(axes)
+    return _png(figure)
+
+
+def census_fan(daily: pd.DataFrame) -> bytes:
+    """Midnight census bands across paths against beds open (daily.csv columns)."""
+    figure, axes = plt.subplots(figsize=(10, 4))
+    dates = pd.to_datetime(daily["date"])
+    _fan(axes, dates, daily, "census_p", "median census")
+    axes.step(dates, daily["beds_open"], where="mid", color="black", linewidth=1.5,
+              label="beds open")  # fmt: skip
+    axes.set_ylabel("patients in beds at midnight")
+    axes.set_title("Census against beds open")
+    axes.legend(loc="upper left", fontsize=8, ncol=3)
+    _date_axis(axes)
+    return _png(figure)
+
+
+def shortfall_probabilities(weekly: pd.DataFrame) -> bytes:
+    """Weekly probabilities of a bed and of a nurse shortfall, with 95% Monte Carlo error
+    bars (1.96 standard errors)."""
+    figure, axes = plt.subplots(figsize=(10, 4))
+    weeks = np.arange(1, len(weekly) + 1)
+    width = 0.4
+    for offset, column, label, colour in (
+        (-width / 2, "p_bed_shortfall", "no free bed at some moment", BAND),
+        (width / 2, "p_staff_shortfall", "at least one shift short of nurses", GREY),
+    ):
+        axes.bar(weeks + offset, weekly[column], width, yerr=1.96 * weekly[f"{column}_se"],
+                 color=colour, alpha=0.8, capsize=2, label=label)  # fmt: skip
+    axes.set_xticks(weeks, [f"{w}\n{d[5:]}" for w, d in zip(weeks, weekly["week_start"])])
+    axes.set_ylim(0, 1)
+    axes.set_xlabel("forecast week (and its first day)")
+    axes.set_ylabel("probability")
+    axes.set_title("Chance of running short, by week")
+    axes.legend(loc="upper left", fontsize=8)
+    axes.grid(axis="y", alpha=0.3)
+    return _png(figure)
+
+
+def nurses_against_roster(shifts: pd.DataFrame) -> bytes:
+    """Per shift: nurses required (median and 90% quantile across paths) against rostered."""
+    names = list(dict.fromkeys(shifts["shift"]))
+    figure, panels = plt.subplots(len(names), 1, figsize=(10, 2.6 * len(names)), sharex=True,
+                                  squeeze=False)  # fmt: skip
+    for axes, name in zip(panels[:, 0], names, strict=True):
+        rows = shifts[shifts["shift"] == name]
+        dates = pd.to_datetime(rows["date"])
+        axes.fill_between(dates, rows["nurses_required_p50"], rows["nurses_required_p90"],
+                          color=BAND, alpha=0.3, step="mid", label="required, median to 90%")
+        axes.step(dates, rows["nurses_required_p50"], where="mid", color=LINE, linewidth=1)
+        axes.step(dates, rows["nurses_rostered"], where="mid", color="black", linewidth=1.5,
+                  label="rostered")  # fmt: skip
+        axes.set_ylabel(f"{name}: nurses")
+        axes.legend(loc="upper left", fontsize=8, ncol=2)
+        _date_axis(axes)
+    panels[0, 0].set_title("Registered nurses required against rostered")
+    return _png(figure)
+
+
+def comparison_chart(comparison: pd.DataFrame) -> bytes:
+    """p_bed_shortfall by week for each scenario, with 95% error bars."""
+    figure, axes = plt.subplots(figsize=(10, 4))
+    for number, (name, rows) in enumerate(comparison.groupby("scenario", sort=False)):
+        weeks = np.arange(1, len(rows) + 1) + 0.08 * number
+        axes.errorbar(weeks, rows["p_bed_shortfall"], yerr=1.96 * rows["p_bed_shortfall_se"],
+                      marker="o", markersize=3, capsize=2, label=name)  # fmt: skip
+    axes.set_ylim(0, 1)
+    axes.set_xlabel("forecast week")
+    axes.set_ylabel("probability of no free bed at some moment")
+    axes.set_title("Bed shortfall by scenario")
+    axes.legend(fontsize=8)
+    axes.grid(alpha=0.3)
+    return _png(figure)

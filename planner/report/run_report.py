@@ -1,0 +1,153 @@
+"""The run report: files, charts and the page written by ``planner run``."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pandas as pd
+
+from planner.report import charts, html
+from planner.report.files import run_record, write_csv, write_json
+from planner.report.weekly import any_shortfall, weekly_table
+
+HEADLINE_WEEKS = 4
+
+#: Columns of the weekly table printed in the terminal, with their short headers.
+TERMINAL_COLUMNS = {
+    "week_start": "week from",
+    "p_bed_shortfall": "P(no bed)",
+    "expected_patients_affected": "affected",
+    "expected_wait_hours": "wait h",
+    "peak_census_p50": "peak p50",
+    "peak_census_p90": "peak p90",
+    "beds_open": "beds",
+    "p_staff_shortfall": "P(short staff)",
+    "expected_short_shifts": "short shifts",
+}
+
+
+def terminal_table(weekly: pd.DataFrame) -> str:
+    """The weekly table as aligned text for the terminal."""
+    shown = weekly[list(TERMINAL_COLUMNS)].rename(columns=TERMINAL_COLUMNS).copy()
+    for column in ("P(no bed)", "P(short staff)"):
+        shown[column] = shown[column].map(lambda p: f"{p:.0%}")
+    for column in ("affected", "wait h", "short shifts", "beds"):
+        shown[column] = shown[column].map(lambda v: f"{v:.1f}")
+    for column in ("peak p50", "peak p90"):
+        shown[column] = shown[column].map(lambda v: f"{v:.0f}")
+    return shown.to_string(index=False)
+
+
+def headline(run, weeks: int = HEADLINE_WEEKS) -> str:
+    """One sentence: the chance of at least one bed shortfall in the first ``weeks`` weeks."""
+    weeks = min(weeks, run.weekly.bed_shortfall.shape[1])
+    share, se = any_shortfall(run.weekly, weeks)
+    affected = run.weekly.patients_affected[:, :weeks].sum(axis=1).mean()
+    return (
+        f"Chance of at least one moment with no free bed in the next {weeks} weeks: "
+        f"{share:.0%} (Monte Carlo standard error {se:.1%}); on average {affected:.1f} "
+        f"patients would find no free bed in that time."
+    )
+
+
+def _ward_plan(scenario) -> list[tuple[str, str]]:
+    ward = scenario.ward
+    changes = "; ".join(
+        f"{c.change:+d} beds {c.start} to {c.end}" for c in ward.bed_changes
+    ) or "none"
+    shifts = "; ".join(
+        f"{s.name} {s.start_hour:05.2f}-{s.end_hour:05.2f} h, 1 nurse per "
+        f"{s.patients_per_nurse:g} patients, rostered Mon-Sun {list(s.roster)}"
+        for s in ward.staffing.shifts
+    )
+    demand = scenario.forecast.demand
+    surges = "; ".join(f"x{s.factor:g} {s.start} to {s.end}" for s in demand.surges)
+    return [
+        ("Beds", f"{ward.beds} base; dated changes: {changes}; no free bed: {ward.policy}"),
+        ("Shifts", f"{shifts}; at least {ward.staffing.minimum_nurses} nurses per shift"),
+        ("Demand changes", f"growth {demand.growth:+.1%}" + (f"; surges {surges}" if surges
+                                                            else "")),
+    ]
+
+
+def assumptions(run) -> list[tuple[str, str]]:
+    """Key assumptions of the run, as (term, description) pairs for the report."""
+    summary = run.forecast.summary
+    items = [
+        ("History", f"{len(run.history.admissions)} days of admissions, "
+                    f"{run.history.admissions.index[0].date()} to {run.history.last_day.date()}"),
+        ("Forecast model", f"AR({summary.order}) with calendar terms, order by "
+                           f"{summary.criterion.upper()}, {summary.strategy} strategy, "
+                           f"{summary.residuals.replace('_', '-')} residual bootstrap, "
+                           f"{run.paths} paths"),
+    ]
+    if summary.backtest is not None:
+        overall = summary.backtest.overall()
+        row = overall.loc[summary.strategy]
+        naive = overall.loc["seasonal_naive"]
+        items.append(("Backtest", (
+            f"{len(summary.backtest.origins)} rolling origins: MASE {row['mase']:.2f} "
+            f"(same weekday last week: {naive['mase']:.2f}), 80% interval held "
+            f"{row['coverage_80']:.0%} of days, 95% interval {row['coverage_95']:.0%}")))
+    items += [
+        ("Length of stay", run.inputs.stays.describe()),
+        ("Current inpatients", f"{len(run.inputs.inpatients_elapsed)} patients on the ward at "
+                               f"00:00 on {run.history.start.date()}, remaining stays drawn "
+                               f"given the time already spent"),
+        *_ward_plan(run.scenario),
+        ("Hindcast", "No hindcast has been run for this setup: the census forecast has not "
+                     "yet been checked against past dates."),
+    ]
+    return items
+
+
+def write_run_files(run, folder: Path, daily: pd.DataFrame, shifts: pd.DataFrame) -> None:
+    """All files of ``planner run`` into ``folder``."""
+    weekly = weekly_table(run.weekly)
+    forecast = run.forecast.table()
+    write_csv(weekly, folder / "weekly.csv")
+    write_csv(daily, folder / "daily.csv")
+    write_csv(shifts, folder / "shifts.csv")
+    write_csv(forecast, folder / "forecast.csv")
+    pictures = {
+        "admissions.png": charts.admissions_fan(run.history.admissions, forecast),
+        "census.png": charts.census_fan(daily),
+        "shortfall.png": charts.shortfall_probabilities(weekly),
+        "nurses.png": charts.nurses_against_roster(shifts),
+    }
+    for name, png in pictures.items():
+        (folder / name).write_bytes(png)
+    (folder / "report.html").write_text(run_page(run, weekly, pictures))
+    inputs = [p for p in (run.scenario.admissions_file, run.scenario.episodes_file) if p]
+    summary = run.forecast.summary
+    extra = {
+        "start": run.history.start.date(),
+        "horizon_days": run.scenario.horizon_days,
+        "forecast": {"strategy": summary.strategy, "order": summary.order,
+                     "criterion": summary.criterion},
+        "timings_s": {k: round(v, 3) for k, v in run.timings.items()},
+    }
+    record = run_record("run", run.scenario.source, run.scenario.resolved, inputs, run.seed,
+                        run.paths, extra)
+    write_json(record, folder / "run.json")
+
+
+def run_page(run, weekly: pd.DataFrame, pictures: dict[str, bytes]) -> str:
+    """The self-contained report page."""
+    scenario = run.scenario
+    last = run.history.start + pd.Timedelta(days=scenario.horizon_days - 1)
+    subtitle = (f"{scenario.description} Forecast {run.history.start.date()} to {last.date()}, "
+                f"{run.paths} sample paths, seed {run.seed}.")
+    formats = {c: ".1%" for c in weekly.columns if c.startswith("p_")}
+    formats |= {c: ".2f" for c in weekly.columns if c.startswith("expected_")}
+    formats |= {"beds_open": ".1f", "peak_census_p50": ".0f", "peak_census_p90": ".0f"}
+    sections = [
+        ("", f'<p class="headline">{html.escape(headline(run))}</p>'),
+        ("Week by week", html.table(weekly, formats)),
+        ("Chance of running short", html.image(pictures["shortfall.png"], "weekly shortfall")),
+        ("Census against beds", html.image(pictures["census.png"], "census fan chart")),
+        ("Admissions", html.image(pictures["admissions.png"], "admissions fan chart")),
+        ("Nurses", html.image(pictures["nurses.png"], "nurses required against rostered")),
+        ("Key assumptions", html.facts(assumptions(run))),
+    ]
+    return html.page(f"Ward plan: {scenario.name}", sections, subtitle)

@@ -1,0 +1,132 @@
+"""The weekly shortfall table: from simulated paths to probabilities with standard errors.
+
+Weeks are 7-day blocks counted from the first forecast day (week 1 = days 1-7). For each path
+and week:
+
+* bed shortfall: at some moment of the week a patient needed a bed and none was free (the
+  patient waited, policy "wait", or was placed elsewhere, policy "divert");
+* patients affected: patients arriving that week who waited or were diverted;
+* wait hours: hours waited by patients arriving that week;
+* peak census: the most beds occupied at any moment of the week;
+* staff shortfall: at least one shift of the week had fewer nurses rostered than required;
+  short shifts: how many.
+
+Probabilities are shares of paths; ``_se`` columns are Monte Carlo standard errors across the
+independent paths, sqrt(p (1 - p) / n) for a share and sd / sqrt(n) for a mean (Source:
+Morris, White & Crowther, Stat. Med. 38 (2019), Table 6).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+
+@dataclass(frozen=True)
+class WeeklyPaths:
+    """Per-path weekly measures, arrays of shape (paths, weeks)."""
+
+    week_start: pd.DatetimeIndex
+    bed_shortfall: np.ndarray
+    patients_affected: np.ndarray
+    diverted: np.ndarray
+    wait_hours: np.ndarray
+    peak_census: np.ndarray
+    staff_shortfall: np.ndarray
+    short_shifts: np.ndarray
+    beds_open: np.ndarray  # (weeks,) mean beds open over the week's days
+    bed_days: np.ndarray  # (weeks,) beds open summed over the week's days
+    nurse_shifts: np.ndarray  # (weeks,) rostered nurse-shifts in the week
+
+    @property
+    def paths(self) -> int:
+        return self.bed_shortfall.shape[0]
+
+
+def _grid(frame: pd.DataFrame, column: str, start: pd.Timestamp, days: int) -> np.ndarray:
+    """Values of ``column`` as a (paths, days) array, summing rows that share a path and day."""
+    day = (pd.to_datetime(frame["date"]) - start).dt.days.to_numpy()
+    path = frame["path"].to_numpy()
+    paths = int(path.max()) + 1
+    grid = np.zeros((paths, days))
+    np.add.at(grid, (path, day), frame[column].to_numpy(dtype=float))
+    return grid
+
+
+def _weeks(grid: np.ndarray, how: str) -> np.ndarray:
+    """Complete 7-day blocks of a (paths, days) array, reduced by ``how`` ("sum" or "max")."""
+    weeks = grid.shape[1] // 7
+    blocks = grid[:, : weeks * 7].reshape(grid.shape[0], weeks, 7)
+    return blocks.sum(axis=2) if how == "sum" else blocks.max(axis=2)
+
+
+def weekly_paths(daily: pd.DataFrame, shifts: pd.DataFrame, start: pd.Timestamp) -> WeeklyPaths:
+    """Reduce the simulation's tidy daily and shift tables to per-path weekly measures."""
+    start = pd.Timestamp(start)
+    days = int((pd.to_datetime(daily["date"]).max() - start).days) + 1
+    affected = _grid(daily, "waited", start, days) + _grid(daily, "diverted", start, days)
+    short = shifts.assign(short=(shifts["shortfall"] > 0).astype(float))
+    short_grid = _grid(short, "short", start, days)
+    beds = _grid(daily, "beds_open", start, days)[0]
+    rostered = _grid(shifts, "nurses_rostered", start, days)[0]
+    weeks = days // 7
+    return WeeklyPaths(
+        week_start=pd.date_range(start, periods=weeks, freq="7D"),
+        bed_shortfall=_weeks(affected, "sum") > 0,
+        patients_affected=_weeks(affected, "sum"),
+        diverted=_weeks(_grid(daily, "diverted", start, days), "sum"),
+        wait_hours=_weeks(_grid(daily, "wait_hours", start, days), "sum"),
+        peak_census=_weeks(_grid(daily, "peak_occupancy", start, days), "max"),
+        staff_shortfall=_weeks(short_grid, "sum") > 0,
+        short_shifts=_weeks(short_grid, "sum"),
+        beds_open=_weeks(beds[None, :], "sum")[0] / 7.0,
+        bed_days=_weeks(beds[None, :], "sum")[0],
+        nurse_shifts=_weeks(rostered[None, :], "sum")[0],
+    )
+
+
+def share_se(indicator: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Share of paths (axis 0) and its Monte Carlo standard error sqrt(p (1 - p) / n)."""
+    share = indicator.mean(axis=0)
+    return share, np.sqrt(share * (1 - share) / indicator.shape[0])
+
+
+def mean_se(values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Mean over paths (axis 0) and its standard error sd / sqrt(n)."""
+    n = values.shape[0]
+    spread = values.std(axis=0, ddof=1) if n > 1 else np.zeros(values.shape[1])
+    return values.mean(axis=0), spread / np.sqrt(n)
+
+
+def weekly_table(weekly: WeeklyPaths) -> pd.DataFrame:
+    """One row per forecast week (columns documented in the README, "weekly.csv")."""
+    p_bed, p_bed_se = share_se(weekly.bed_shortfall)
+    p_staff, p_staff_se = share_se(weekly.staff_shortfall)
+    affected, affected_se = mean_se(weekly.patients_affected)
+    peak = np.quantile(weekly.peak_census, [0.5, 0.9], axis=0)
+    return pd.DataFrame(
+        {
+            "week_start": weekly.week_start.strftime("%Y-%m-%d"),
+            "p_bed_shortfall": p_bed,
+            "p_bed_shortfall_se": p_bed_se,
+            "expected_patients_affected": affected,
+            "expected_patients_affected_se": affected_se,
+            "expected_diverted": weekly.diverted.mean(axis=0),
+            "expected_wait_hours": weekly.wait_hours.mean(axis=0),
+            "peak_census_p50": peak[0],
+            "peak_census_p90": peak[1],
+            "beds_open": weekly.beds_open,
+            "p_staff_shortfall": p_staff,
+            "p_staff_shortfall_se": p_staff_se,
+            "expected_short_shifts": weekly.short_shifts.mean(axis=0),
+        }
+    )
+
+
+def any_shortfall(weekly: WeeklyPaths, weeks: int) -> tuple[float, float]:
+    """Probability (and SE) of at least one bed shortfall in the first ``weeks`` weeks."""
+    hit = weekly.bed_shortfall[:, :weeks].any(axis=1)
+    share, se = share_se(hit[:, None])
+    return float(share[0]), float(se[0])

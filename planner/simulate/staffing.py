@@ -1,0 +1,144 @@
+"""Nurse staffing per shift: which shifts make up the day, who is rostered, who is required.
+
+Pure functions on settings and numpy arrays. Times of day are hours from midnight; a shift
+belongs to the day on which it starts (the night shift 19 -> 7 of Monday is Monday's).
+
+Nurses required on a shift = max(minimum_nurses, ceil(peak occupied beds / patients_per_nurse));
+a shift is short when required > rostered, and shortfall = max(required - rostered, 0).
+"""
+
+from __future__ import annotations
+
+from datetime import date, timedelta
+
+import numpy as np
+import pandas as pd
+
+from planner.errors import PlannerError
+from planner.simulate.settings import Shift, StaffingSettings
+
+
+def _hours(value: float) -> str:
+    return f"{value:g}"
+
+
+def validate_staffing(staffing: StaffingSettings) -> None:
+    """Raise PlannerError unless the shifts tile the 24 hours of the day without gap or overlap
+    and every value is usable (ratios > 0, rosters of 7 whole numbers >= 0, known shift names)."""
+    shifts = staffing.shifts
+    if not shifts:
+        raise PlannerError("staffing.shifts: at least one shift is needed")
+    names = [shift.name for shift in shifts]
+    for name in names:
+        if names.count(name) > 1:
+            raise PlannerError(f"staffing.shifts: shift name {name!r} is used more than once")
+    for shift in shifts:
+        where = f"staffing.shifts[{shift.name!r}]"
+        for key in ("start_hour", "end_hour"):
+            hour = getattr(shift, key)
+            if not 0 <= hour < 24:
+                raise PlannerError(f"{where}.{key} must be in [0, 24), got {hour!r}")
+        if not shift.patients_per_nurse > 0:
+            raise PlannerError(f"{where}.patients_per_nurse must be > 0")
+        if len(shift.roster) != 7 or any(int(n) != n or n < 0 for n in shift.roster):
+            raise PlannerError(f"{where}.roster must be 7 whole numbers >= 0 (Mon..Sun)")
+    if int(staffing.minimum_nurses) != staffing.minimum_nurses or staffing.minimum_nurses < 0:
+        raise PlannerError("staffing.minimum_nurses must be a whole number >= 0")
+    ordered = sorted(shifts, key=lambda shift: shift.start_hour)
+    for i, shift in enumerate(ordered):
+        following = ordered[(i + 1) % len(ordered)]
+        next_start = following.start_hour + (24.0 if i + 1 == len(ordered) else 0.0)
+        end = shift.start_hour + shift.length_hours
+        if next_start < end:
+            raise PlannerError(
+                f"staffing.shifts: {shift.name!r} ({_hours(shift.start_hour)}-"
+                f"{_hours(shift.end_hour)}) overlaps {following.name!r} "
+                f"(starts {_hours(following.start_hour)})"
+            )
+        if next_start > end:
+            raise PlannerError(
+                f"staffing.shifts: gap between {shift.name!r} (ends {_hours(shift.end_hour)}) "
+                f"and {following.name!r} (starts {_hours(following.start_hour)})"
+            )
+    for override in staffing.overrides:
+        if override.shift not in names:
+            raise PlannerError(f"staffing.overrides: unknown shift {override.shift!r}")
+        if override.end < override.start:
+            raise PlannerError(
+                f"staffing.overrides: end {override.end} is before start {override.start}"
+            )
+        if int(override.nurses) != override.nurses or override.nurses < 0:
+            raise PlannerError("staffing.overrides: nurses must be a whole number >= 0")
+
+
+def shift_starts(shifts: tuple[Shift, ...], days: int) -> np.ndarray:
+    """Start of every shift of ``days`` days, hours since 00:00 of day 0, shape (days, shifts),
+    columns in the order of ``shifts``."""
+    hours = np.array([shift.start_hour for shift in shifts], dtype=float)
+    return 24.0 * np.arange(days, dtype=float)[:, None] + hours
+
+
+def rostered_nurses(staffing: StaffingSettings, start: date, days: int) -> np.ndarray:
+    """Registered nurses rostered per day and shift (nurses), shape (days, shifts): the weekday
+    roster (Monday..Sunday) with dated overrides applied (a later override wins)."""
+    dates = [start + timedelta(days=d) for d in range(days)]
+    weekdays = np.array([day.weekday() for day in dates], dtype=np.int64)
+    roster = np.array([shift.roster for shift in staffing.shifts], dtype=np.int32).T
+    rostered = roster[weekdays] if days else np.zeros((0, len(staffing.shifts)), np.int32)
+    column = {shift.name: j for j, shift in enumerate(staffing.shifts)}
+    for override in staffing.overrides:
+        first = max((override.start - start).days, 0)
+        last = min((override.end - start).days, days - 1)
+        if first <= last:
+            rostered[first : last + 1, column[override.shift]] = override.nurses
+    return rostered
+
+
+def nurses_required(
+    peak_occupancy: np.ndarray, patients_per_nurse: np.ndarray, minimum_nurses: int
+) -> np.ndarray:
+    """Nurses required = max(minimum_nurses, ceil(peak occupied beds / patients_per_nurse)).
+
+    ``patients_per_nurse`` broadcasts against ``peak_occupancy`` (e.g. one value per shift on
+    the last axis). Returns nurses as int32.
+    """
+    ratio = np.asarray(peak_occupancy, dtype=float) / np.asarray(patients_per_nurse, dtype=float)
+    # Round away floating noise before the ceiling so that 28 / 4 is exactly 7 nurses.
+    needed = np.ceil(np.round(ratio, 9))
+    return np.maximum(needed, minimum_nurses).astype(np.int32)
+
+
+def shortfall(required: np.ndarray, rostered: np.ndarray) -> np.ndarray:
+    """Nurses short on a shift: max(required - rostered, 0), int32."""
+    gap = np.asarray(required, dtype=np.int64) - np.asarray(rostered, dtype=np.int64)
+    return np.maximum(gap, 0).astype(np.int32)
+
+
+def shift_table(
+    peak_occupancy: np.ndarray, staffing: StaffingSettings, start: date, first_path: int = 0
+) -> pd.DataFrame:
+    """Tidy staffing table from peak occupied beds per (path, day, shift) (shifts in the order
+    of ``staffing.shifts``): path, date (day the shift starts), shift, peak_occupancy,
+    nurses_required, nurses_rostered, shortfall (patients and nurses, int32)."""
+    peak = np.asarray(peak_occupancy, dtype=np.int32)
+    paths, days, count = peak.shape
+    ratio = np.array([shift.patients_per_nurse for shift in staffing.shifts], dtype=float)
+    required = nurses_required(peak, ratio, staffing.minimum_nurses)
+    rostered = np.broadcast_to(rostered_nurses(staffing, start, days), peak.shape)
+    dates = np.datetime64(start, "D") + np.arange(days)
+    names = pd.Categorical.from_codes(
+        np.tile(np.arange(count), paths * days), categories=[s.name for s in staffing.shifts]
+    )
+    return pd.DataFrame(
+        {
+            "path": np.repeat(
+                np.arange(first_path, first_path + paths, dtype=np.int32), days * count
+            ),
+            "date": np.tile(np.repeat(dates, count), paths).astype("datetime64[s]"),
+            "shift": names,
+            "peak_occupancy": peak.ravel(),
+            "nurses_required": required.ravel(),
+            "nurses_rostered": rostered.ravel().astype(np.int32),
+            "shortfall": shortfall(required, rostered).ravel(),
+        }
+    )

@@ -1,0 +1,1 @@
+"""Reference values and formulas from outside sources, one module per source family."""
