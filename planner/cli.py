@@ -138,14 +138,17 @@ def forecast(scenario: Path | None, out, overwrite, paths, seed) -> None:
     plan, history = _load(scenario)
     target = _target(out, plan, "forecast")
     with atomic_folder(target, overwrite) as folder:
-        result = forecast_step(plan, history, paths or plan.paths, plan.seed if seed is None
-                               else seed)  # fmt: skip
+        result = forecast_step(
+            plan, history, paths or plan.paths, plan.seed if seed is None else seed
+        )
         table = result.table()
         write_csv(table, folder / "forecast.csv")
         (folder / "admissions.png").write_bytes(admissions_fan(history.admissions, table))
     summary = result.summary
-    click.echo(f"AR order {summary.order} ({summary.criterion.upper()}), strategy "
-               f"{summary.strategy}; {len(table)} days from {history.start.date()}")  # fmt: skip
+    click.echo(
+        f"AR order {summary.order} ({summary.criterion.upper()}), strategy "
+        f"{summary.strategy}; {len(table)} days from {history.start.date()}"
+    )
     click.echo(f"wrote {target}/forecast.csv and admissions.png")
 
 
@@ -165,8 +168,12 @@ def backtest(scenario: Path | None, out, overwrite, paths, seed) -> None:
     plan, history = _load(scenario)
     target = _target(out, plan, "backtest")
     with atomic_folder(target, overwrite) as folder:
-        result = backtest_step(plan, history, paths or plan.forecast.backtest_paths,
-                               plan.seed if seed is None else seed)  # fmt: skip
+        result = backtest_step(
+            plan,
+            history,
+            paths or plan.forecast.backtest_paths,
+            plan.seed if seed is None else seed,
+        )
         table = result.table.copy()
         table["horizon_week"] = table["horizon_week"].map(lambda w: "all" if w == 0 else w)
         write_csv(table, folder / "backtest.csv")
@@ -195,8 +202,9 @@ def simulate(scenario: Path | None, out, overwrite, paths, seed) -> None:
         write_csv(summarise_daily(run.ward), folder / "daily.csv")
         write_csv(summarise_shifts(run.ward), folder / "shifts.csv")
     patients = int(run.forecast.paths.sum())
-    click.echo(f"simulated {run.paths} paths, {patients} patients in "
-               f"{run.timings['simulate_s']:.1f} s")  # fmt: skip
+    click.echo(
+        f"simulated {run.paths} paths, {patients} patients in {run.timings['simulate_s']:.1f} s"
+    )
     click.echo(f"wrote {target}/daily.csv and shifts.csv")
 
 
@@ -219,11 +227,12 @@ def run(scenario: Path | None, out, overwrite, paths, seed) -> None:
     target = _target(out, plan, "run")
     with atomic_folder(target, overwrite) as folder:
         result = run_scenario(plan, paths, seed, _progress("simulating"))
-        write_run_files(result, folder, summarise_daily(result.ward),
-                        summarise_shifts(result.ward))  # fmt: skip
+        write_run_files(result, folder, summarise_daily(result.ward), summarise_shifts(result.ward))
     click.echo(f"{plan.name}: {result.paths} paths from {result.history.start.date()}")
     click.echo(terminal_table(weekly_table(result.weekly)))
     click.echo(headline(result))
-    click.echo("Decision support only: staffing and capacity decisions follow local policy, "
-               "safe-staffing review and professional judgement.")  # fmt: skip
+    click.echo(
+        "Decision support only: staffing and capacity decisions follow local policy, "
+        "safe-staffing review and professional judgement."
+    )
     click.echo(f"wrote {target}/report.html")

@@ -172,9 +172,15 @@ def simulate_step(
     total = arrivals.shape[0]
     for first in range(0, total, chunk):
         part = simulate_ward(
-            arrivals[first : first + chunk], start.date(), scenario.ward, inputs.stays,
-            inputs.inpatients_elapsed, inputs.hour_profile, streams.ward, first_path=first,
-        )  # fmt: skip
+            arrivals[first : first + chunk],
+            start.date(),
+            scenario.ward,
+            inputs.stays,
+            inputs.inpatients_elapsed,
+            inputs.hour_profile,
+            streams.ward,
+            first_path=first,
+        )
         parts.append(part)
         if progress is not None:
             progress(min(first + chunk, total), total)

@@ -40,9 +40,14 @@ def _date_axis(axes: plt.Axes) -> None:
 def _fan(axes: plt.Axes, dates, table: pd.DataFrame, prefix: str, label: str) -> None:
     for low, high, alpha in BANDS:
         axes.fill_between(
-            dates, table[f"{prefix}{low}"], table[f"{prefix}{high}"], color=BAND, alpha=alpha,
-            linewidth=0, label=f"{int(high) - int(low)}% of paths",
-        )  # fmt: skip
+            dates,
+            table[f"{prefix}{low}"],
+            table[f"{prefix}{high}"],
+            color=BAND,
+            alpha=alpha,
+            linewidth=0,
+            label=f"{int(high) - int(low)}% of paths",
+        )
     axes.plot(dates, table[f"{prefix}50"], color=LINE, linewidth=1.5, label=label)
 
 
@@ -66,8 +71,9 @@ def census_fan(daily: pd.DataFrame) -> bytes:
     figure, axes = plt.subplots(figsize=(10, 4))
     dates = pd.to_datetime(daily["date"])
     _fan(axes, dates, daily, "census_p", "median census")
-    axes.step(dates, daily["beds_open"], where="mid", color="black", linewidth=1.5,
-              label="beds open")  # fmt: skip
+    axes.step(
+        dates, daily["beds_open"], where="mid", color="black", linewidth=1.5, label="beds open"
+    )
     axes.set_ylabel("patients in beds at midnight")
     axes.set_title("Census against beds open")
     axes.legend(loc="upper left", fontsize=8, ncol=3)
@@ -85,9 +91,19 @@ def shortfall_probabilities(weekly: pd.DataFrame) -> bytes:
         (-width / 2, "p_bed_shortfall", "no free bed at some moment", BAND),
         (width / 2, "p_staff_shortfall", "at least one shift short of nurses", GREY),
     ):
-        axes.bar(weeks + offset, weekly[column], width, yerr=1.96 * weekly[f"{column}_se"],
-                 color=colour, alpha=0.8, capsize=2, label=label)  # fmt: skip
-    axes.set_xticks(weeks, [f"{w}\n{d[5:]}" for w, d in zip(weeks, weekly["week_start"])])
+        axes.bar(
+            weeks + offset,
+            weekly[column],
+            width,
+            yerr=1.96 * weekly[f"{column}_se"],
+            color=colour,
+            alpha=0.8,
+            capsize=2,
+            label=label,
+        )
+    axes.set_xticks(
+        weeks, [f"{w}\n{d[5:]}" for w, d in zip(weeks, weekly["week_start"], strict=True)]
+    )
     axes.set_ylim(0, 1)
     axes.set_xlabel("forecast week (and its first day)")
     axes.set_ylabel("probability")
@@ -100,16 +116,30 @@ def shortfall_probabilities(weekly: pd.DataFrame) -> bytes:
 def nurses_against_roster(shifts: pd.DataFrame) -> bytes:
     """Per shift: nurses required (median and 90% quantile across paths) against rostered."""
     names = list(dict.fromkeys(shifts["shift"]))
-    figure, panels = plt.subplots(len(names), 1, figsize=(10, 2.6 * len(names)), sharex=True,
-                                  squeeze=False)  # fmt: skip
+    figure, panels = plt.subplots(
+        len(names), 1, figsize=(10, 2.6 * len(names)), sharex=True, squeeze=False
+    )
     for axes, name in zip(panels[:, 0], names, strict=True):
         rows = shifts[shifts["shift"] == name]
         dates = pd.to_datetime(rows["date"])
-        axes.fill_between(dates, rows["nurses_required_p50"], rows["nurses_required_p90"],
-                          color=BAND, alpha=0.3, step="mid", label="required, median to 90%")
+        axes.fill_between(
+            dates,
+            rows["nurses_required_p50"],
+            rows["nurses_required_p90"],
+            color=BAND,
+            alpha=0.3,
+            step="mid",
+            label="required, median to 90%",
+        )
         axes.step(dates, rows["nurses_required_p50"], where="mid", color=LINE, linewidth=1)
-        axes.step(dates, rows["nurses_rostered"], where="mid", color="black", linewidth=1.5,
-                  label="rostered")  # fmt: skip
+        axes.step(
+            dates,
+            rows["nurses_rostered"],
+            where="mid",
+            color="black",
+            linewidth=1.5,
+            label="rostered",
+        )
         axes.set_ylabel(f"{name}: nurses")
         axes.legend(loc="upper left", fontsize=8, ncol=2)
         _date_axis(axes)
@@ -122,8 +152,15 @@ def comparison_chart(comparison: pd.DataFrame) -> bytes:
     figure, axes = plt.subplots(figsize=(10, 4))
     for number, (name, rows) in enumerate(comparison.groupby("scenario", sort=False)):
         weeks = np.arange(1, len(rows) + 1) + 0.08 * number
-        axes.errorbar(weeks, rows["p_bed_shortfall"], yerr=1.96 * rows["p_bed_shortfall_se"],
-                      marker="o", markersize=3, capsize=2, label=name)  # fmt: skip
+        axes.errorbar(
+            weeks,
+            rows["p_bed_shortfall"],
+            yerr=1.96 * rows["p_bed_shortfall_se"],
+            marker="o",
+            markersize=3,
+            capsize=2,
+            label=name,
+        )
     axes.set_ylim(0, 1)
     axes.set_xlabel("forecast week")
     axes.set_ylabel("probability of no free bed at some moment")

@@ -52,9 +52,9 @@ def headline(run, weeks: int = HEADLINE_WEEKS) -> str:
 
 def _ward_plan(scenario) -> list[tuple[str, str]]:
     ward = scenario.ward
-    changes = "; ".join(
-        f"{c.change:+d} beds {c.start} to {c.end}" for c in ward.bed_changes
-    ) or "none"
+    changes = (
+        "; ".join(f"{c.change:+d} beds {c.start} to {c.end}" for c in ward.bed_changes) or "none"
+    )
     shifts = "; ".join(
         f"{s.name} {s.start_hour:05.2f}-{s.end_hour:05.2f} h, 1 nurse per "
         f"{s.patients_per_nurse:g} patients, rostered Mon-Sun {list(s.roster)}"
@@ -65,8 +65,10 @@ def _ward_plan(scenario) -> list[tuple[str, str]]:
     return [
         ("Beds", f"{ward.beds} base; dated changes: {changes}; no free bed: {ward.policy}"),
         ("Shifts", f"{shifts}; at least {ward.staffing.minimum_nurses} nurses per shift"),
-        ("Demand changes", f"growth {demand.growth:+.1%}" + (f"; surges {surges}" if surges
-                                                            else "")),
+        (
+            "Demand changes",
+            f"growth {demand.growth:+.1%}" + (f"; surges {surges}" if surges else ""),
+        ),
     ]
 
 
@@ -74,29 +76,47 @@ def assumptions(run) -> list[tuple[str, str]]:
     """Key assumptions of the run, as (term, description) pairs for the report."""
     summary = run.forecast.summary
     items = [
-        ("History", f"{len(run.history.admissions)} days of admissions, "
-                    f"{run.history.admissions.index[0].date()} to {run.history.last_day.date()}"),
-        ("Forecast model", f"AR({summary.order}) with calendar terms, order by "
-                           f"{summary.criterion.upper()}, {summary.strategy} strategy, "
-                           f"{summary.residuals.replace('_', '-')} residual bootstrap, "
-                           f"{run.paths} paths"),
+        (
+            "History",
+            f"{len(run.history.admissions)} days of admissions, "
+            f"{run.history.admissions.index[0].date()} to {run.history.last_day.date()}",
+        ),
+        (
+            "Forecast model",
+            f"AR({summary.order}) with calendar terms, order by "
+            f"{summary.criterion.upper()}, {summary.strategy} strategy, "
+            f"{summary.residuals.replace('_', '-')} residual bootstrap, "
+            f"{run.paths} paths",
+        ),
     ]
     if summary.backtest is not None:
         overall = summary.backtest.overall()
         row = overall.loc[summary.strategy]
         naive = overall.loc["seasonal_naive"]
-        items.append(("Backtest", (
-            f"{len(summary.backtest.origins)} rolling origins: MASE {row['mase']:.2f} "
-            f"(same weekday last week: {naive['mase']:.2f}), 80% interval held "
-            f"{row['coverage_80']:.0%} of days, 95% interval {row['coverage_95']:.0%}")))
+        items.append(
+            (
+                "Backtest",
+                (
+                    f"{len(summary.backtest.origins)} rolling origins: MASE {row['mase']:.2f} "
+                    f"(same weekday last week: {naive['mase']:.2f}), 80% interval held "
+                    f"{row['coverage_80']:.0%} of days, 95% interval {row['coverage_95']:.0%}"
+                ),
+            )
+        )
     items += [
         ("Length of stay", run.inputs.stays.describe()),
-        ("Current inpatients", f"{len(run.inputs.inpatients_elapsed)} patients on the ward at "
-                               f"00:00 on {run.history.start.date()}, remaining stays drawn "
-                               f"given the time already spent"),
+        (
+            "Current inpatients",
+            f"{len(run.inputs.inpatients_elapsed)} patients on the ward at "
+            f"00:00 on {run.history.start.date()}, remaining stays drawn "
+            f"given the time already spent",
+        ),
         *_ward_plan(run.scenario),
-        ("Hindcast", "No hindcast has been run for this setup: the census forecast has not "
-                     "yet been checked against past dates."),
+        (
+            "Hindcast",
+            "No hindcast has been run for this setup: the census forecast has not "
+            "yet been checked against past dates.",
+        ),
     ]
     return items
 
@@ -123,12 +143,16 @@ def write_run_files(run, folder: Path, daily: pd.DataFrame, shifts: pd.DataFrame
     extra = {
         "start": run.history.start.date(),
         "horizon_days": run.scenario.horizon_days,
-        "forecast": {"strategy": summary.strategy, "order": summary.order,
-                     "criterion": summary.criterion},
+        "forecast": {
+            "strategy": summary.strategy,
+            "order": summary.order,
+            "criterion": summary.criterion,
+        },
         "timings_s": {k: round(v, 3) for k, v in run.timings.items()},
     }
-    record = run_record("run", run.scenario.source, run.scenario.resolved, inputs, run.seed,
-                        run.paths, extra)
+    record = run_record(
+        "run", run.scenario.source, run.scenario.resolved, inputs, run.seed, run.paths, extra
+    )
     write_json(record, folder / "run.json")
 
 
@@ -136,8 +160,10 @@ def run_page(run, weekly: pd.DataFrame, pictures: dict[str, bytes]) -> str:
     """The self-contained report page."""
     scenario = run.scenario
     last = run.history.start + pd.Timedelta(days=scenario.horizon_days - 1)
-    subtitle = (f"{scenario.description} Forecast {run.history.start.date()} to {last.date()}, "
-                f"{run.paths} sample paths, seed {run.seed}.")
+    subtitle = (
+        f"{scenario.description} Forecast {run.history.start.date()} to {last.date()}, "
+        f"{run.paths} sample paths, seed {run.seed}."
+    )
     formats = {c: ".1%" for c in weekly.columns if c.startswith("p_")}
     formats |= {c: ".2f" for c in weekly.columns if c.startswith("expected_")}
     formats |= {"beds_open": ".1f", "peak_census_p50": ".0f", "peak_census_p90": ".0f"}

@@ -1,0 +1,151 @@
+"""Rolling-origin backtest with a refit at each origin.
+
+Origins are the first forecast days ``n - every * k`` for ``k = origins .. 1`` (default: 26
+weekly origins over the last 26 weeks). At each origin the whole procedure is rerun on the days
+before it: order choice, fit, bootstrap paths (``settings.backtest_paths`` of them, rounded to
+counts like the forecast), for each strategy (recursive, direct, seasonal naive). The set of
+deterministic columns is fixed once from the whole history; their coefficients are refitted.
+
+Origins whose target window runs past the end of the history are truncated: they are scored on
+the days that are observed, so late horizon weeks are scored on fewer origins (column ``days``).
+Origins leaving too little training data (``max_lag + H + 30`` days) are skipped.
+The backtest's own paths use in-sample residuals and ignore demand adjustments: it scores the
+model, not the scenario.
+
+MAE and RMSE score the paths' mean; MASE scales each origin's absolute errors by that origin's
+training-data seasonal naive error (m = 7); pinball loss averages the levels 0.05 .. 0.95;
+coverage_80 / interval_score_80 use the 0.1 and 0.9 quantiles, coverage_95 the 0.025 and 0.975.
+
+Out-of-sample residuals for ``residuals="backtest"``: recursive, the one-step errors on every
+day of the window (the fit of the latest origin predicting each day from the observed lags);
+direct, the error paths (actual minus direct point forecast, h = 1 .. H) of the untruncated
+origins.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from planner.errors import PlannerError
+from planner.forecast import metrics
+from planner.forecast.ar import design
+from planner.forecast.bootstrap import to_counts
+from planner.forecast.paths import STRATEGIES, model_paths
+from planner.forecast.result import QUANTILE_LEVELS, BacktestResult
+
+SCORED_LEVELS = (0.025,) + QUANTILE_LEVELS + (0.975,)
+COLUMNS = [
+    "strategy",
+    "horizon_week",
+    "days",
+    "mae",
+    "rmse",
+    "mase",
+    "pinball",
+    "coverage_80",
+    "coverage_95",
+    "interval_score_80",
+]
+
+
+def origin_positions(n: int, settings, horizon: int) -> np.ndarray:
+    """0-based positions of the first forecast day of each usable origin, ascending."""
+    if settings.backtest_origins < 1 or settings.backtest_every < 1:
+        raise PlannerError("backtest_origins and backtest_every must be >= 1")
+    positions = n - settings.backtest_every * np.arange(settings.backtest_origins, 0, -1)
+    usable = positions[positions >= settings.max_lag + horizon + 30]
+    if usable.shape[0] == 0:
+        raise PlannerError(
+            f"history: {n} days are too few for a backtest at horizon {horizon} "
+            f"with max_lag {settings.max_lag}"
+        )
+    return usable
+
+
+def backtest_arrays(
+    values: np.ndarray,
+    dates: pd.DatetimeIndex,
+    terms,
+    settings,
+    horizon: int,
+    n_paths: int,
+    rng: np.random.Generator,
+    columns: tuple[str, ...] | None = None,
+) -> BacktestResult:
+    """Backtest on ``values`` (admissions per day on ``dates``) with deterministic ``terms``
+    (only ``columns`` of them if given, e.g. without a holiday column that is empty in sample)."""
+    n = values.shape[0]
+    extended = pd.date_range(dates[0], periods=n + horizon, freq="D")
+    names = tuple(terms.names) if columns is None else tuple(columns)
+    deterministic_all = terms.in_sample(extended)[list(names)].to_numpy()
+    positions = origin_positions(n, settings, horizon)
+    n_paths = max(1, min(n_paths, settings.backtest_paths))
+    scored = {strategy: [] for strategy in STRATEGIES}
+    one_step_errors: list[np.ndarray] = []
+    direct_errors: list[np.ndarray] = []
+    for origin, origin_rng in zip(positions, rng.spawn(len(positions)), strict=True):
+        training, observed = values[:origin], values[origin : origin + horizon]
+        scale = metrics.mase_scale(training)
+        for strategy, strategy_rng in zip(STRATEGIES, origin_rng.spawn(3), strict=True):
+            path_rng, rounding_rng = strategy_rng.spawn(2)
+            result = model_paths(
+                strategy,
+                training,
+                deterministic_all[:origin],
+                deterministic_all[origin : origin + horizon],
+                settings,
+                n_paths,
+                path_rng,
+                names,
+            )
+            counts = to_counts(result.paths[:, : observed.shape[0]], rounding_rng)
+            quantiles = np.quantile(counts, SCORED_LEVELS, axis=0).T
+            scored[strategy].append((observed, counts.mean(axis=0), quantiles, scale))
+            if strategy == "recursive":
+                end = min(origin + settings.backtest_every, n)
+                X, y = design(values[:end], result.one_step.order, deterministic_all[:end])
+                days = end - origin
+                one_step_errors.append(y[-days:] - X[-days:] @ result.one_step.coefficients)
+            if strategy == "direct" and observed.shape[0] == horizon:
+                direct_errors.append(observed - result.point)
+    rows = [row for strategy in STRATEGIES for row in _score(strategy, scored[strategy], horizon)]
+    residuals = {
+        "recursive": np.concatenate(one_step_errors),
+        "direct": np.array(direct_errors).reshape(len(direct_errors), horizon),
+    }
+    return BacktestResult(
+        table=pd.DataFrame(rows, columns=COLUMNS),
+        origins=pd.DatetimeIndex(dates[positions]),
+        residuals=residuals,
+        n_paths=n_paths,
+    )
+
+
+def _score(strategy: str, records, horizon: int) -> list[tuple]:
+    actual = np.concatenate([r[0] for r in records])
+    mean = np.concatenate([r[1] for r in records])
+    quantiles = np.vstack([r[2] for r in records])
+    scale = np.concatenate([np.full(r[0].shape[0], r[3]) for r in records])
+    week = np.concatenate([np.arange(r[0].shape[0]) // 7 + 1 for r in records])
+    rows = []
+    for horizon_week in [0] + list(range(1, (horizon + 6) // 7 + 1)):
+        keep = week == horizon_week if horizon_week else np.ones(actual.shape[0], bool)
+        if not keep.any():
+            continue
+        y, q = actual[keep], quantiles[keep]
+        rows.append(
+            (
+                strategy,
+                horizon_week,
+                int(keep.sum()),
+                metrics.mae(y, mean[keep]),
+                metrics.rmse(y, mean[keep]),
+                float(np.mean(np.abs(y - mean[keep]) / scale[keep])),
+                metrics.pinball_loss(y, q[:, 1:-1], QUANTILE_LEVELS),
+                metrics.coverage(y, q[:, 2], q[:, 6]),
+                metrics.coverage(y, q[:, 0], q[:, -1]),
+                metrics.interval_score(y, q[:, 2], q[:, 6], alpha=0.2),
+            )
+        )
+    return rows

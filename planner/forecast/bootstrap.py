@@ -1,0 +1,127 @@
+"""Sample paths of daily admissions by residual bootstrap, and their rounding to counts.
+
+- Recursive: each day of each path gets a residual drawn (with replacement) from the centred
+  one-step residuals, and the perturbed value is fed back as a lag, so errors propagate through
+  the AR dynamics. One loop over the horizon, arrays over paths.
+- Recursive with ``refit``: parameter uncertainty as well. ``n_series`` bootstrap histories are
+  rebuilt from the fitted model and resampled residuals (starting from the observed first ``p``
+  days, on the observed calendar), the model is refitted on each at the same order, and path
+  ``i`` uses refit ``i mod n_series``; all paths start from the observed last ``p`` days and
+  take their shocks from the original residual pool. A few dozen refits capture the parameter
+  spread at a small cost; refitting once per path would cost one regression per path.
+- Direct: each path draws ONE estimation origin and adds that origin's whole vector of
+  ``h``-step residuals (``h = 1 .. H``, from the H direct regressions on their common origins)
+  to the direct point forecast. A path is then a realised error path of the data, with its
+  day-to-day dependence, not a set of independent daily draws.
+
+Counts (:func:`to_counts`): paths are continuous; they are clipped at 0 admissions and then
+stochastically rounded: ``floor(x) + Bernoulli(x - floor(x))``. Rounding this way keeps the
+expected value of each (clipped) day exactly, where ``round()`` would bias small daily means
+and the weekly totals built from them.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from planner.errors import PlannerError
+from planner.forecast.ar import ArFit, design
+from planner.forecast.strategies import simulate_recursive
+
+
+def centred(residuals) -> np.ndarray:
+    """Residuals minus their mean (column means for a matrix of error paths)."""
+    residuals = np.asarray(residuals, dtype=float)
+    if residuals.shape[0] == 0:
+        raise PlannerError("residuals: no residuals to resample")
+    return residuals - residuals.mean(axis=0)
+
+
+def recursive_paths(
+    fit: ArFit,
+    last_values,
+    future_deterministic: np.ndarray,
+    n_paths: int,
+    rng: np.random.Generator,
+    residual_pool=None,
+) -> np.ndarray:
+    """``(n_paths, H)`` continuous paths from the recursive model; shocks are resampled from
+    ``residual_pool`` (default: the fit's in-sample residuals), centred."""
+    pool = centred(fit.residuals if residual_pool is None else residual_pool)
+    horizon = future_deterministic.shape[0]
+    shocks = pool[rng.integers(0, pool.shape[0], size=(n_paths, horizon))]
+    return simulate_recursive(
+        fit.lag_coefficients,
+        fit.deterministic_coefficients,
+        last_values,
+        future_deterministic,
+        shocks,
+    )
+
+
+def bootstrap_histories(
+    fit: ArFit, values, deterministic: np.ndarray, n_series: int, rng: np.random.Generator
+) -> np.ndarray:
+    """``(n_series, n)`` series rebuilt from the fitted one-step model with resampled centred
+    residuals, starting from the observed first ``p`` days (same calendar as ``values``)."""
+    values = np.asarray(values, dtype=float)
+    order = fit.order
+    pool = centred(fit.residuals)
+    future = deterministic[order:]
+    shocks = pool[rng.integers(0, pool.shape[0], size=(n_series, future.shape[0]))]
+    rebuilt = simulate_recursive(
+        fit.lag_coefficients, fit.deterministic_coefficients, values[:order], future, shocks
+    )
+    return np.hstack([np.broadcast_to(values[:order], (n_series, order)), rebuilt])
+
+
+def refit_recursive_paths(
+    fit: ArFit,
+    values,
+    deterministic: np.ndarray,
+    future_deterministic: np.ndarray,
+    n_paths: int,
+    n_series: int,
+    rng: np.random.Generator,
+    residual_pool=None,
+) -> np.ndarray:
+    """Recursive paths with parameter uncertainty (see the module docstring)."""
+    if n_series < 1:
+        raise PlannerError(f"refit_series must be >= 1, got {n_series}")
+    series_rng, shock_rng = rng.spawn(2)
+    histories = bootstrap_histories(fit, values, deterministic, n_series, series_rng)
+    coefficients = np.empty((n_series, fit.coefficients.shape[0]))
+    for b in range(n_series):
+        X, y = design(histories[b], fit.order, deterministic, 1, fit.hold_back)
+        coefficients[b] = np.linalg.lstsq(X, y, rcond=None)[0]
+    per_path = coefficients[np.arange(n_paths) % n_series]
+    pool = centred(fit.residuals if residual_pool is None else residual_pool)
+    horizon = future_deterministic.shape[0]
+    shocks = pool[shock_rng.integers(0, pool.shape[0], size=(n_paths, horizon))]
+    k = fit.n_deterministic
+    return simulate_recursive(
+        per_path[:, k:], per_path[:, :k], values, future_deterministic, shocks
+    )
+
+
+def direct_paths(
+    point: np.ndarray, error_paths: np.ndarray, n_paths: int, rng: np.random.Generator
+) -> np.ndarray:
+    """``(n_paths, H)``: ``point`` (H,) plus one whole row of ``error_paths`` (origins x H) per
+    path, the row drawn uniformly with replacement."""
+    error_paths = np.asarray(error_paths, dtype=float)
+    if error_paths.ndim != 2 or error_paths.shape[0] == 0:
+        raise PlannerError("residuals: no complete error paths to resample")
+    if error_paths.shape[1] != point.shape[0]:
+        raise PlannerError(
+            f"horizon: error paths cover {error_paths.shape[1]} days, need {point.shape[0]}"
+        )
+    return point[None, :] + error_paths[rng.integers(0, error_paths.shape[0], size=n_paths)]
+
+
+def to_counts(paths, rng: np.random.Generator) -> np.ndarray:
+    """Clip at 0 and round stochastically to non-negative int64 admissions (mean-preserving)."""
+    clipped = np.maximum(np.asarray(paths, dtype=float), 0.0)
+    whole = np.floor(clipped)
+    up = rng.random(clipped.shape) < (clipped - whole)
+    return (whole + up).astype(np.int64)

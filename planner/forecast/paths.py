@@ -1,0 +1,90 @@
+"""From one training window to continuous sample paths, for one strategy.
+
+This is the procedure that the backtest evaluates at each origin and that the forecast runs
+once on the whole history: choose the AR order on the training data (unless fixed), fit, then
+bootstrap paths (see :mod:`planner.forecast.bootstrap`). The strategies are "recursive",
+"direct" and the benchmark "seasonal_naive".
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from planner.errors import PlannerError
+from planner.forecast.ar import ArFit, fit_selected
+from planner.forecast.bootstrap import (
+    centred,
+    direct_paths,
+    recursive_paths,
+    refit_recursive_paths,
+)
+from planner.forecast.naive import seasonal_naive_errors, seasonal_naive_point
+from planner.forecast.strategies import direct_point, fit_direct, recursive_point
+
+STRATEGIES = ("recursive", "direct", "seasonal_naive")
+
+
+@dataclass(frozen=True)
+class StrategyPaths:
+    """Continuous paths ``(n_paths, H)`` and point forecast ``(H,)`` in admissions per day, with
+    the one-step fit behind them (``None`` for the seasonal naive benchmark)."""
+
+    strategy: str
+    paths: np.ndarray
+    point: np.ndarray
+    one_step: ArFit | None
+
+
+def model_paths(
+    strategy: str,
+    values: np.ndarray,
+    deterministic: np.ndarray,
+    future_deterministic: np.ndarray,
+    settings,
+    n_paths: int,
+    rng: np.random.Generator,
+    names: tuple[str, ...] | None = None,
+    engine: str = "numpy",
+    residual_pool: np.ndarray | None = None,
+    error_paths: np.ndarray | None = None,
+) -> StrategyPaths:
+    """Fit ``strategy`` on ``values`` (with ``deterministic`` aligned to it) and simulate
+    ``n_paths`` paths over the ``H = len(future_deterministic)`` following days.
+
+    ``residual_pool`` replaces the recursive model's in-sample residuals and ``error_paths``
+    the direct model's aligned residual paths (used for ``residuals="backtest"``).
+    """
+    horizon = future_deterministic.shape[0]
+    if strategy == "seasonal_naive":
+        point = seasonal_naive_point(values, horizon)
+        paths = direct_paths(point, seasonal_naive_errors(values, horizon), n_paths, rng)
+        return StrategyPaths(strategy, paths, point, None)
+    if strategy not in STRATEGIES:
+        raise PlannerError(f"strategy must be one of {STRATEGIES + ('auto',)}, got {strategy!r}")
+    one_step = fit_selected(
+        values, settings.max_lag, deterministic, names, settings.criterion, settings.order, engine
+    )
+    if strategy == "recursive":
+        point = recursive_point(one_step, values, future_deterministic)
+        if settings.refit:
+            paths = refit_recursive_paths(
+                one_step,
+                values,
+                deterministic,
+                future_deterministic,
+                n_paths,
+                settings.refit_series,
+                rng,
+                residual_pool,
+            )
+        else:
+            paths = recursive_paths(
+                one_step, values, future_deterministic, n_paths, rng, residual_pool
+            )
+        return StrategyPaths(strategy, paths, point, one_step)
+    direct = fit_direct(values, one_step.order, horizon, deterministic, names, engine="numpy")
+    point = direct_point(direct, values, future_deterministic)
+    errors = centred(direct.aligned_residuals() if error_paths is None else error_paths)
+    return StrategyPaths(strategy, direct_paths(point, errors, n_paths, rng), point, one_step)

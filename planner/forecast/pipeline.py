@@ -1,0 +1,156 @@
+"""The forecast engine's two entry points: :func:`forecast_admissions` and :func:`run_backtest`.
+
+Data flow: validated history -> deterministic terms -> (backtest, when the strategy is "auto"
+or residuals are "backtest") -> fit and bootstrap paths for the chosen strategy -> demand
+adjustments -> clip and stochastic rounding -> :class:`ForecastResult`.
+
+Randomness: ``rng`` is split with ``Generator.spawn`` into independent streams for the backtest,
+the paths and the rounding, so the same seed gives the same result.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from planner.errors import PlannerError
+from planner.forecast.adjust import adjust_paths
+from planner.forecast.backtest import backtest_arrays
+from planner.forecast.bootstrap import to_counts
+from planner.forecast.deterministic import terms_for_history
+from planner.forecast.paths import model_paths
+from planner.forecast.result import BacktestResult, ForecastResult, ForecastSummary
+
+HISTORY_TAIL_DAYS = 182
+
+
+def check_settings(settings, horizon: int, n_paths: int) -> None:
+    """Raise PlannerError naming the first bad value."""
+    if settings.strategy not in ("recursive", "direct", "seasonal_naive", "auto"):
+        raise PlannerError(
+            f'strategy must be "recursive", "direct", "seasonal_naive" or "auto", '
+            f"got {settings.strategy!r}"
+        )
+    if settings.criterion not in ("aic", "bic"):
+        raise PlannerError(f'criterion must be "aic" or "bic", got {settings.criterion!r}')
+    if settings.residuals not in ("in_sample", "backtest"):
+        raise PlannerError(
+            f'residuals must be "in_sample" or "backtest", got {settings.residuals!r}'
+        )
+    if settings.max_lag < 1:
+        raise PlannerError(f"max_lag must be >= 1, got {settings.max_lag}")
+    if settings.order is not None and settings.order < 0:
+        raise PlannerError(f"order must be >= 0, got {settings.order}")
+    if settings.backtest_paths < 1 or settings.refit_series < 1:
+        raise PlannerError("backtest_paths and refit_series must be >= 1")
+    if horizon < 1:
+        raise PlannerError(f"horizon must be >= 1 day, got {horizon}")
+    if n_paths < 1:
+        raise PlannerError(f"n_paths must be >= 1, got {n_paths}")
+
+
+def run_backtest(
+    history: pd.Series, settings, horizon: int, n_paths: int, rng: np.random.Generator
+) -> BacktestResult:
+    """Rolling-origin backtest of recursive, direct and seasonal naive forecasts of ``horizon``
+    days (see :mod:`planner.forecast.backtest`)."""
+    check_settings(settings, horizon, n_paths)
+    terms = terms_for_history(settings, history.index)
+    return backtest_arrays(
+        history.to_numpy(dtype=float),
+        history.index,
+        terms,
+        settings,
+        horizon,
+        n_paths,
+        rng,
+        observed_columns(terms, history.index),
+    )
+
+
+def observed_columns(terms, dates: pd.DatetimeIndex) -> tuple[str, ...]:
+    """Deterministic columns that are not all zero on the history (an empty holiday column
+    would make the regression rank-deficient)."""
+    in_sample = terms.in_sample(dates)
+    return tuple(name for name in terms.names if in_sample[name].abs().sum() > 0)
+
+
+def forecast_admissions(
+    history: pd.Series,
+    settings,
+    horizon: int,
+    n_paths: int,
+    rng: np.random.Generator,
+    start: pd.Timestamp | None = None,
+) -> ForecastResult:
+    """Sample paths of daily emergency admissions for ``horizon`` days from ``start`` (default:
+    the day after the history ends; a later start forecasts through the gap and drops it)."""
+    check_settings(settings, horizon, n_paths)
+    values = history.to_numpy(dtype=float)
+    dates = pd.DatetimeIndex(history.index)
+    first_day = dates[-1] + pd.Timedelta(days=1)
+    start = first_day if start is None else pd.Timestamp(start).normalize()
+    gap = (start - first_day).days
+    if gap < 0:
+        raise PlannerError(f"start: {start.date()} is before the day after the history ends")
+    total = gap + horizon
+    terms = terms_for_history(settings, dates)
+    keep = list(observed_columns(terms, dates))
+    future_dates = pd.date_range(first_day, periods=total, freq="D")
+    deterministic = terms.in_sample(dates)[keep].to_numpy()
+    future_deterministic = terms.out_of_sample(future_dates)[keep].to_numpy()
+    backtest_rng, path_rng, rounding_rng = rng.spawn(3)
+
+    backtest = None
+    strategy = settings.strategy
+    if strategy == "auto" or settings.residuals == "backtest":
+        backtest = backtest_arrays(
+            values, dates, terms, settings, total, n_paths, backtest_rng, tuple(keep)
+        )
+    pinball = {}
+    if backtest is not None:
+        pinball = backtest.overall()["pinball"].to_dict()
+    if strategy == "auto":
+        strategy = "recursive" if pinball["recursive"] <= pinball["direct"] else "direct"
+
+    residual_pool = error_paths = None
+    if settings.residuals == "backtest":
+        residual_pool = backtest.residuals["recursive"]
+        error_paths = backtest.residuals["direct"]
+    result = model_paths(
+        strategy,
+        values,
+        deterministic,
+        future_deterministic,
+        settings,
+        n_paths,
+        path_rng,
+        tuple(keep),
+        engine="statsmodels",
+        residual_pool=residual_pool,
+        error_paths=error_paths,
+    )
+    adjusted = adjust_paths(result.paths[:, gap:], future_dates[gap:], settings.demand)
+    counts = to_counts(adjusted, rounding_rng)
+    fit = result.one_step
+    summary = ForecastSummary(
+        strategy=strategy,
+        order=fit.order if fit else 0,
+        criterion=settings.criterion if settings.order is None else "fixed",
+        coefficients=fit.params.to_dict() if fit else {},
+        sigma2=fit.sigma2 if fit else float("nan"),
+        aic=fit.aic if fit else float("nan"),
+        bic=fit.bic if fit else float("nan"),
+        nobs=fit.nobs if fit else len(values),
+        residuals=settings.residuals,
+        refit=bool(settings.refit),
+        backtest=backtest,
+        backtest_pinball=pinball,
+    )
+    return ForecastResult(
+        dates=future_dates[gap:],
+        paths=counts,
+        mean=counts.mean(axis=0),
+        summary=summary,
+        history=history.iloc[-HISTORY_TAIL_DAYS:].copy(),
+    )

@@ -1,0 +1,95 @@
+"""Result objects of the forecast engine (frozen; tables are built on request).
+
+``ForecastResult.table()`` columns: ``date`` (forecast day), ``mean`` (mean admissions over
+paths), ``q05 .. q95`` (quantiles of the day's admissions over paths, patients per day).
+``ForecastResult.weekly_table()`` columns: ``week_start`` (first day of a 7-day block counted
+from the first forecast day; only complete blocks), ``mean``, ``q05 .. q95`` of the block's
+total admissions (patients per week).
+``BacktestResult.table`` columns: ``strategy``, ``horizon_week`` (1 = forecast days 1-7, ...;
+0 = all days of the horizon together), ``days`` (scored origin-days), ``mae``, ``rmse``,
+``mase``, ``pinball``, ``coverage_80``, ``coverage_95``, ``interval_score_80``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+QUANTILE_LEVELS = (0.05, 0.1, 0.25, 0.5, 0.75, 0.9, 0.95)
+
+
+def quantile_column(level: float) -> str:
+    """``0.05 -> "q05"``, ``0.5 -> "q50"``."""
+    return f"q{round(level * 100):02d}"
+
+
+@dataclass(frozen=True)
+class BacktestResult:
+    """Rolling-origin evaluation. ``origins``: first forecast day of each origin.
+    ``residuals``: out-of-sample errors (admissions) per strategy, ``"recursive"``: 1-D one-step
+    errors on every day of the backtest window; ``"direct"``: ``(origins, H)`` error paths of the
+    origins whose whole horizon lies inside the history."""
+
+    table: pd.DataFrame
+    origins: pd.DatetimeIndex
+    residuals: dict[str, np.ndarray]
+    n_paths: int
+
+    def overall(self) -> pd.DataFrame:
+        """The ``horizon_week == 0`` rows, indexed by strategy."""
+        return self.table[self.table["horizon_week"] == 0].set_index("strategy")
+
+
+@dataclass(frozen=True)
+class ForecastSummary:
+    """What was fitted and why. Coefficients, sigma2 (admissions^2), aic, bic and nobs are those
+    of the one-step model (for "direct", its h = 1 regression is the same model)."""
+
+    strategy: str
+    order: int
+    criterion: str
+    coefficients: dict[str, float]
+    sigma2: float
+    aic: float
+    bic: float
+    nobs: int
+    residuals: str
+    refit: bool
+    backtest: BacktestResult | None = None
+    backtest_pinball: dict[str, float] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class ForecastResult:
+    """Sample paths of daily admissions: ``paths[i, d]`` patients on ``dates[d]`` in path ``i``."""
+
+    dates: pd.DatetimeIndex
+    paths: np.ndarray
+    mean: np.ndarray
+    summary: ForecastSummary
+    history: pd.Series
+    quantile_levels: tuple[float, ...] = QUANTILE_LEVELS
+
+    @property
+    def horizon(self) -> int:
+        return len(self.dates)
+
+    def table(self) -> pd.DataFrame:
+        """One row per forecast day: date, mean, q05 .. q95 (patients per day)."""
+        quantiles = np.quantile(self.paths, self.quantile_levels, axis=0)
+        frame = pd.DataFrame({"date": self.dates, "mean": self.mean})
+        for level, values in zip(self.quantile_levels, quantiles, strict=True):
+            frame[quantile_column(level)] = values
+        return frame
+
+    def weekly_table(self) -> pd.DataFrame:
+        """One row per complete 7-day block: week_start, mean, q05 .. q95 of weekly totals."""
+        weeks = self.horizon // 7
+        totals = self.paths[:, : weeks * 7].reshape(self.paths.shape[0], weeks, 7).sum(axis=2)
+        frame = pd.DataFrame({"week_start": self.dates[: weeks * 7 : 7], "mean": totals.mean(0)})
+        quantiles = np.quantile(totals, self.quantile_levels, axis=0).reshape(-1, weeks)
+        for level, values in zip(self.quantile_levels, quantiles, strict=True):
+            frame[quantile_column(level)] = values
+        return frame
