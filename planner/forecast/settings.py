@@ -8,7 +8,8 @@ from datetime import date
 
 @dataclass(frozen=True)
 class Surge:
-    """Multiply expected admissions by ``factor`` on every day from ``start`` to ``end`` inclusive."""
+    """Multiply expected admissions by ``factor`` on every day from ``start`` to ``end``
+    inclusive."""
 
     start: date
     end: date

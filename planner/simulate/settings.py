@@ -1,4 +1,4 @@
-"""Ward settings: what the scenario file's ``[beds]``, ``[stay]`` and ``[staffing]`` tables resolve to.
+"""Ward settings: what the scenario's ``[beds]``, ``[stay]`` and ``[staffing]`` tables resolve to.
 
 Times of day are hours from midnight (0-24); dates are calendar days; stays are in days.
 """
