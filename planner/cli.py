@@ -236,3 +236,36 @@ def run(scenario: Path | None, out, overwrite, paths, seed) -> None:
         "safe-staffing review and professional judgement."
     )
     click.echo(f"wrote {target}/report.html")
+
+
+@cli.command()
+@click.argument(
+    "scenarios", nargs=-1, required=True, type=click.Path(dir_okay=False, path_type=Path)
+)
+@out_option
+@overwrite_option
+@paths_option
+@seed_option
+@user_errors
+def compare(scenarios: tuple[Path, ...], out, overwrite, paths, seed) -> None:
+    """Compare ward plans (the first is the reference) with common random numbers:
+    comparison.csv, costs.csv, a chart and comparison.html."""
+    from planner.compare import compare_scenarios
+    from planner.outputs import atomic_folder, default_folder
+    from planner.report.compare_report import summary_table, write_compare_files
+    from planner.scenario import load_scenario
+
+    first = load_scenario(scenarios[0])
+    target = out if out is not None else default_folder(first.name, "compare")
+
+    def progress(label: str):
+        return _progress(f"simulating {label}")
+
+    with atomic_folder(target, overwrite) as folder:
+        result = compare_scenarios(list(scenarios), paths, seed, progress)
+        write_compare_files(result, folder)
+    summary = summary_table(result)
+    click.echo(summary.to_string(index=False, float_format=lambda v: f"{v:.3f}"))
+    if result.costs is not None:
+        click.echo(result.costs.to_string(index=False, float_format=lambda v: f"{v:,.1f}"))
+    click.echo(f"wrote {target}/comparison.html")

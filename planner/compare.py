@@ -116,10 +116,17 @@ def cost_table(runs: tuple[RunResult, ...]) -> pd.DataFrame | None:
         harm = (costs.diverted_patient * weekly.diverted.sum(axis=1).mean()
                 + costs.waiting_hour * weekly.wait_hours.sum(axis=1).mean())  # fmt: skip
         avoided, avoided_se = mean_se((base_affected - affected)[:, None])
-        rows.append({"scenario": run.scenario.name, "plan_cost": plan,
-                     "affected_patients_cost": harm, "total_cost": plan + harm,
-                     "expected_shortfalls": affected.mean(),
-                     "shortfalls_avoided": avoided[0], "shortfalls_avoided_se": avoided_se[0]})
+        rows.append(
+            {
+                "scenario": run.scenario.name,
+                "plan_cost": plan,
+                "affected_patients_cost": harm,
+                "total_cost": plan + harm,
+                "expected_shortfalls": affected.mean(),
+                "shortfalls_avoided": avoided[0],
+                "shortfalls_avoided_se": avoided_se[0],
+            }
+        )
     table = pd.DataFrame(rows)
     extra = table["plan_cost"] - table["plan_cost"].iloc[0]
     avoided = table["shortfalls_avoided"].where(table["shortfalls_avoided"] > 0)

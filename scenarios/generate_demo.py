@@ -3,7 +3,7 @@
 Both the hospital and the ward are fictional. The ward is a 28-bed general medical ward
 taking emergency admissions. The generating process (all values invented for the demo):
 
-* expected admissions per day: 4.3 on a typical weekday, with a weekday pattern (Monday
+* expected admissions per day: 4.0 on a typical weekday, with a weekday pattern (Monday
   busiest, weekends at about 0.78 of weekdays), an annual cycle peaking in mid-January
   (+12%) and a slow upward trend of 1.5% a year;
 * day-to-day noise: a latent log-rate following an AR(1) process (coefficient 0.5, sd 0.08),
@@ -28,7 +28,7 @@ import pandas as pd
 SEED = 20261201
 FIRST_DAY = "2023-01-02"
 LAST_DAY = "2026-11-29"
-WEEKDAY_LEVEL = 4.3
+WEEKDAY_LEVEL = 4.0
 WEEKDAY_FACTORS = np.array([1.12, 1.04, 1.01, 0.99, 0.98, 0.79, 0.77])  # Monday..Sunday
 WINTER_PEAK = 0.12  # relative amplitude of the annual cycle
 PEAK_DAY_OF_YEAR = 15
