@@ -4,6 +4,7 @@ print or write its result. Every user error is one line on stderr and exit statu
 from __future__ import annotations
 
 import functools
+import os
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -82,11 +83,6 @@ def check(scenario: Path | None) -> None:
 
     for line in check_scenario(scenario):
         click.echo(line)
-
-
-def main() -> None:
-    """Console-script entry point."""
-    cli(prog_name="planner")
 
 
 def _load(scenario_path: Path | None):
@@ -269,3 +265,15 @@ def compare(scenarios: tuple[Path, ...], out, overwrite, paths, seed) -> None:
     if result.costs is not None:
         click.echo(result.costs.to_string(index=False, float_format=lambda v: f"{v:,.1f}"))
     click.echo(f"wrote {target}/comparison.html")
+
+
+#: BLAS threads: the matrices here are small, and threaded BLAS on them is slower, badly so
+#: on a busy machine; parallel work is done across paths instead. A user's setting wins.
+BLAS_THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
+
+
+def main() -> None:
+    """Console-script entry point."""
+    for name in BLAS_THREAD_VARIABLES:
+        os.environ.setdefault(name, "1")
+    cli(prog_name="planner")

@@ -86,8 +86,9 @@ def paired_difference(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndar
 def comparison_table(runs: tuple[RunResult, ...]) -> pd.DataFrame:
     """comparison.csv: per scenario and week, the measures and differences to the first."""
     base = runs[0].weekly
+    base_table = weekly_table(base)
     frames = []
-    for run in runs:
+    for number, run in enumerate(runs):
         weekly = weekly_table(run.weekly)
         frame = pd.DataFrame({"scenario": run.scenario.name, "week_start": weekly["week_start"]})
         for measure, field in MEASURES.items():
@@ -95,10 +96,10 @@ def comparison_table(runs: tuple[RunResult, ...]) -> pd.DataFrame:
             se = weekly[f"{measure}_se"]
             frame[f"{measure}_se"] = se
             diff, diff_se = paired_difference(getattr(base, field), getattr(run.weekly, field))
-            base_se = weekly_table(base)[f"{measure}_se"]
+            independent = np.sqrt(se**2 + base_table[f"{measure}_se"] ** 2)
             frame[f"diff_{measure}"] = diff
             frame[f"diff_{measure}_se"] = diff_se
-            frame[f"diff_{measure}_se_independent"] = np.sqrt(se**2 + base_se**2)
+            frame[f"diff_{measure}_se_independent"] = independent if number else 0.0
         frames.append(frame)
     return pd.concat(frames, ignore_index=True)
 

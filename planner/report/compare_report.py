@@ -45,7 +45,7 @@ def write_compare_files(comparison, folder: Path) -> None:
     run.json."""
     write_csv(comparison.table, folder / "comparison.csv")
     if comparison.costs is not None:
-        write_csv(comparison.costs, folder / "costs.csv")
+        write_csv(comparison.costs, folder / "costs.csv", float_format="%.2f")
     picture = charts.comparison_chart(comparison.table)
     (folder / "comparison.png").write_bytes(picture)
     (folder / "comparison.html").write_text(compare_page(comparison, picture))

@@ -20,13 +20,14 @@ import pandas as pd
 PACKAGES = ("planner", "numpy", "pandas", "scipy", "statsmodels", "simpy", "matplotlib", "click")
 
 
-def write_csv(frame: pd.DataFrame, path: Path) -> None:
-    """Write a table with dates as YYYY-MM-DD and floats to 6 significant digits."""
+def write_csv(frame: pd.DataFrame, path: Path, float_format: str = "%.6g") -> None:
+    """Write a table with dates as YYYY-MM-DD and floats to 6 significant digits (or
+    ``float_format``)."""
     out = frame.copy()
     for column in out.columns:
         if pd.api.types.is_datetime64_any_dtype(out[column]):
             out[column] = out[column].dt.strftime("%Y-%m-%d")
-    out.to_csv(path, index=False, float_format="%.6g", lineterminator="\n")
+    out.to_csv(path, index=False, float_format=float_format, lineterminator="\n")
 
 
 def file_sha256(path: Path) -> str:
