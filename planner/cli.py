@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import functools
 import os
+import sys
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any
@@ -101,7 +102,7 @@ def _target(out: Path | None, scenario, command: str) -> Path:
 
 def _progress(label: str):
     """A progress callback drawing a bar on stderr when it is a terminal, else None."""
-    stream = click.get_text_stream("stderr")
+    stream = sys.stderr
     if not stream.isatty():
         return None
     state: dict[str, Any] = {}

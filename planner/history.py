@@ -2,10 +2,12 @@
 
 Two file shapes are accepted:
 
-* daily counts, ``date,admissions``: ISO dates (YYYY-MM-DD), one row per day, no gaps,
-  non-negative whole numbers;
+* daily counts, ``date,admissions``: ISO dates (YYYY-MM-DD) unless the scenario declares
+  ``history.date_format``, one row per day in increasing order, no gaps (unless
+  ``history.fill_missing_days`` counts missing days as 0), non-negative whole numbers;
 * episodes, ``admitted_at,discharged_at``: ISO timestamps (YYYY-MM-DD HH:MM[:SS] or with a
-  ``T``); an empty ``discharged_at`` means the patient is still on the ward.
+  ``T``) unless the scenario declares ``history.timestamp_format``; an empty
+  ``discharged_at`` means the patient is still on the ward.
 
 Both may carry a UTF-8 byte-order mark, Windows line ends, and either comma or semicolon
 separators. Every problem raises :class:`PlannerError` naming the file, the line and the
@@ -15,6 +17,10 @@ problem. Line numbers count the header as line 1.
 from __future__ import annotations
 
 import csv
+import difflib
+import io
+import re
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
@@ -23,99 +29,175 @@ import pandas as pd
 from planner.errors import PlannerError
 
 HOURS_PER_DAY = 24.0
+#: Days of history from which ``forecast.annual = "auto"`` switches the annual terms on.
+ANNUAL_AUTO_DAYS = 730
+#: Training days the forecast engine keeps before a backtest origin beyond max_lag + horizon.
+BACKTEST_SPARE_DAYS = 30
+#: Days of data beyond the number of coefficients that a fit is given, so it is not degenerate.
+FIT_SPARE_DAYS = 14
+_SLASHED = re.compile(r"^\d{1,2}[/.\-]\d{1,2}[/.\-]\d{2,4}\b")
+
+
+@dataclass(frozen=True)
+class HistoryFormat:
+    """How a ward's files write their dates, and what to do about missing days.
+
+    date_format: ``strptime`` format of the daily file's ``date`` column (None: YYYY-MM-DD).
+    timestamp_format: format of the episode file's timestamps (None: ISO 8601).
+    fill_missing_days: count days absent from the daily file as 0 admissions (else refuse).
+    """
+
+    date_format: str | None = None
+    timestamp_format: str | None = None
+    fill_missing_days: bool = False
+
+
+def _text(path: Path) -> str:
+    """The file's text (UTF-8, byte-order mark dropped), refusing folders and binary data."""
+    if path.is_dir():
+        raise PlannerError(f"{path}: is a folder, not a CSV file")
+    if not path.is_file():
+        raise PlannerError(f"{path}: file not found")
+    data = path.read_bytes()
+    if data[:2] in (b"\xff\xfe", b"\xfe\xff"):
+        raise PlannerError(f"{path}: is UTF-16 text; save it as CSV in UTF-8")
+    if b"\x00" in data[:65536]:
+        raise PlannerError(f"{path}: is not a text file (binary data); give a CSV file")
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError as error:
+        line = data[: error.start].count(b"\n") + 1
+        raise PlannerError(
+            f"{path}: line {line}: byte {data[error.start]:#04x} is not UTF-8 text; "
+            f"save the file as CSV in UTF-8"
+        ) from None
 
 
 def _read_table(path: Path, columns: tuple[str, ...]) -> pd.DataFrame:
-    """Read a small CSV as strings, checking it exists, is not empty and has ``columns``."""
-    path = Path(path)
-    if not path.is_file():
-        raise PlannerError(f"{path}: file not found")
-    with path.open(encoding="utf-8-sig", newline="") as handle:
-        head = handle.readline()
-    if not head.strip():
+    """Read a CSV as stripped strings, checking it is not empty and has ``columns``."""
+    text = _text(path)
+    head = text.split("\n", 1)[0]
+    if not text.strip():
         raise PlannerError(f"{path}: the file is empty")
     separator = ";" if head.count(";") > head.count(",") else ","
     try:
         frame = pd.read_csv(
-            path,
+            io.StringIO(text),
             sep=separator,
             dtype=str,
             keep_default_na=False,
-            encoding="utf-8-sig",
             skipinitialspace=True,
+            skip_blank_lines=True,
         )
-    except (pd.errors.ParserError, csv.Error, UnicodeDecodeError) as error:
+    except (pd.errors.ParserError, csv.Error) as error:
         reason = str(error).strip().splitlines()[-1]
         raise PlannerError(f"{path}: cannot be read as CSV ({reason})") from None
     frame.columns = [str(name).strip().lower() for name in frame.columns]
     missing = [name for name in columns if name not in frame.columns]
     if missing:
-        found = ", ".join(frame.columns) or "none"
+        found = list(frame.columns)
+        hints = [
+            f"{close[0]!r} for {name!r}?"
+            for name in missing
+            if (close := difflib.get_close_matches(name, found, n=1, cutoff=0.6))
+        ]
+        hint = f" (misspelt: {' '.join(hints)})" if hints else ""
         raise PlannerError(
-            f"{path}: missing column(s) {', '.join(missing)} (found: {found}); "
-            f"expected header: {','.join(columns)}"
+            f"{path}: line 1: missing column(s) {', '.join(missing)} (found: "
+            f"{', '.join(found) or 'none'}){hint}; expected header: {','.join(columns)}"
         )
     if frame.empty:
         raise PlannerError(f"{path}: no data rows below the header")
-    return frame[list(columns)].apply(lambda column: column.str.strip())
+    return frame[list(columns)].fillna("").apply(lambda column: column.str.strip())
 
 
-def _parse_times(path: Path, column: str, values: pd.Series, *, dates_only: bool) -> pd.Series:
-    """Parse ISO dates or timestamps; an empty string becomes NaT."""
-    fmt = "%Y-%m-%d" if dates_only else "ISO8601"
-    parsed = pd.to_datetime(values.where(values != ""), format=fmt, errors="coerce")
-    bad = parsed.isna() & (values != "")
+def _parse_times(
+    path: Path, column: str, values: pd.Series, fmt: str | None, *, dates_only: bool
+) -> pd.Series:
+    """Parse dates (``fmt`` or ISO) or timestamps; an empty string becomes NaT."""
+    given = values != ""
+    pattern = fmt or ("%Y-%m-%d" if dates_only else "ISO8601")
+    parsed = pd.to_datetime(values.where(given), format=pattern, errors="coerce")
+    bad = (parsed.isna() & given).to_numpy()
+    if not bad.any():
+        return parsed
+    row = int(np.flatnonzero(bad)[0])
+    value = values.iloc[row]
+    key = "history.date_format" if dates_only else "history.timestamp_format"
+    where = f"{path}: line {row + 2}: {column} {value!r}"
+    if fmt is not None:
+        raise PlannerError(f"{where} does not match {key} = {fmt!r}")
+    expected = "YYYY-MM-DD" if dates_only else "YYYY-MM-DD HH:MM"
+    problem = f"{where} is not a date in the form {expected}"
+    good = np.flatnonzero((parsed.notna() & given).to_numpy())
+    if good.size:
+        problem += f" (line {good[0] + 2} has {values.iloc[good[0]]!r}: the file mixes formats)"
+    if _SLASHED.match(value):
+        example = "%d/%m/%Y" if dates_only else "%d/%m/%Y %H:%M"
+        problem += f"; for day-first dates set {key} = {example!r} in the scenario"
+    raise PlannerError(problem)
+
+
+def _counts(path: Path, column: str, text: pd.Series) -> np.ndarray:
+    """Whole non-negative counts, or an error naming the first bad line."""
+    values = pd.to_numeric(text, errors="coerce").to_numpy(dtype=float)
+    bad = ~np.isfinite(values) | (values < 0) | (values != np.floor(values))
     if bad.any():
-        row = int(np.flatnonzero(bad.to_numpy())[0])
-        expected = "YYYY-MM-DD" if dates_only else "YYYY-MM-DD HH:MM"
+        row = int(np.flatnonzero(bad)[0])
         raise PlannerError(
-            f"{path}: line {row + 2}: {column} {values.iloc[row]!r} is not a date in the "
-            f"form {expected}"
+            f"{path}: line {row + 2}: {column} {text.iloc[row]!r} is not a non-negative "
+            f"whole number"
         )
-    return parsed
+    return values.astype(np.int64)
 
 
-def read_daily_admissions(path: str | Path) -> pd.Series:
+def read_daily_admissions(path: str | Path, form: HistoryFormat | None = None) -> pd.Series:
     """Daily admissions from a ``date,admissions`` CSV, as an int64 Series named
     ``admissions`` on a gap-free daily DatetimeIndex."""
-    path = Path(path)
+    path, form = Path(path), form or HistoryFormat()
     frame = _read_table(path, ("date", "admissions"))
-    dates = _parse_times(path, "date", frame["date"], dates_only=True)
-    empty = frame["date"] == ""
+    empty = (frame["date"] == "").to_numpy()
     if empty.any():
         raise PlannerError(f"{path}: line {int(np.flatnonzero(empty)[0]) + 2}: date is empty")
-    counts = pd.to_numeric(frame["admissions"], errors="coerce")
-    for row, (text, value) in enumerate(zip(frame["admissions"], counts, strict=True)):
-        if np.isnan(value) or value < 0 or value != np.floor(value):
-            raise PlannerError(
-                f"{path}: line {row + 2}: admissions {text!r} is not a non-negative whole number"
-            )
-    duplicated = dates.duplicated()
+    dates = _parse_times(path, "date", frame["date"], form.date_format, dates_only=True)
+    dates = dates.dt.normalize()
+    counts = _counts(path, "admissions", frame["admissions"])
+    duplicated = dates.duplicated().to_numpy()
     if duplicated.any():
-        row = int(np.flatnonzero(duplicated.to_numpy())[0])
-        raise PlannerError(f"{path}: line {row + 2}: date {frame['date'].iloc[row]} appears twice")
+        row = int(np.flatnonzero(duplicated)[0])
+        first = int(np.flatnonzero((dates == dates.iloc[row]).to_numpy())[0])
+        raise PlannerError(
+            f"{path}: line {row + 2}: date {dates.iloc[row].date()} appears twice "
+            f"(also on line {first + 2})"
+        )
     steps = dates.diff().dt.days.to_numpy()[1:]
     if (steps < 0).any():
         row = int(np.flatnonzero(steps < 0)[0]) + 1
-        raise PlannerError(f"{path}: line {row + 2}: dates are not in increasing order")
-    if (steps > 1).any():
-        row = int(np.flatnonzero(steps > 1)[0]) + 1
-        gap_start = (dates.iloc[row - 1] + pd.Timedelta(days=1)).date()
         raise PlannerError(
-            f"{path}: line {row + 2}: days missing from {gap_start} to "
-            f"{(dates.iloc[row] - pd.Timedelta(days=1)).date()} (one row per day is required)"
+            f"{path}: line {row + 2}: dates are not in increasing order "
+            f"({dates.iloc[row].date()} after {dates.iloc[row - 1].date()})"
         )
-    index = pd.DatetimeIndex(dates, freq="D", name="date")
-    return pd.Series(counts.to_numpy(dtype=np.int64), index=index, name="admissions")
+    series = pd.Series(counts, index=pd.DatetimeIndex(dates, name="date"), name="admissions")
+    if (steps > 1).any() and not form.fill_missing_days:
+        row = int(np.flatnonzero(steps > 1)[0]) + 1
+        raise PlannerError(
+            f"{path}: line {row + 2}: days missing from "
+            f"{(dates.iloc[row - 1] + pd.Timedelta(days=1)).date()} to "
+            f"{(dates.iloc[row] - pd.Timedelta(days=1)).date()} (one row per day is required; "
+            f"set history.fill_missing_days = true to count missing days as 0)"
+        )
+    full = pd.date_range(dates.iloc[0], dates.iloc[-1], freq="D", name="date")
+    return series.reindex(full, fill_value=0).astype(np.int64)
 
 
-def read_episodes(path: str | Path) -> pd.DataFrame:
+def read_episodes(path: str | Path, form: HistoryFormat | None = None) -> pd.DataFrame:
     """Episode records from an ``admitted_at,discharged_at`` CSV, sorted by admission.
     ``discharged_at`` is NaT for patients still on the ward."""
-    path = Path(path)
+    path, form = Path(path), form or HistoryFormat()
     frame = _read_table(path, ("admitted_at", "discharged_at"))
-    admitted = _parse_times(path, "admitted_at", frame["admitted_at"], dates_only=False)
-    discharged = _parse_times(path, "discharged_at", frame["discharged_at"], dates_only=False)
+    fmt = form.timestamp_format
+    admitted = _parse_times(path, "admitted_at", frame["admitted_at"], fmt, dates_only=False)
+    discharged = _parse_times(path, "discharged_at", frame["discharged_at"], fmt, dates_only=False)
     if admitted.isna().any():
         row = int(np.flatnonzero(admitted.isna().to_numpy())[0])
         raise PlannerError(f"{path}: line {row + 2}: admitted_at is empty")
@@ -127,7 +209,69 @@ def read_episodes(path: str | Path) -> pd.DataFrame:
             f"admitted_at {frame['admitted_at'].iloc[row]}"
         )
     episodes = pd.DataFrame({"admitted_at": admitted, "discharged_at": discharged})
+    repeated = episodes.duplicated().to_numpy()
+    if repeated.any():
+        row = int(np.flatnonzero(repeated)[0])
+        same = (episodes == episodes.iloc[row]) | (episodes.isna() & episodes.iloc[row].isna())
+        first = int(np.flatnonzero(same.all(axis=1).to_numpy())[0])
+        raise PlannerError(
+            f"{path}: line {row + 2}: the same episode as line {first + 2} "
+            f"({frame['admitted_at'].iloc[row]} to {frame['discharged_at'].iloc[row] or 'now'}); "
+            f"remove duplicated records"
+        )
     return episodes.sort_values("admitted_at", kind="stable").reset_index(drop=True)
+
+
+def days_needed(settings, forecast_days: int, history_days: int) -> tuple[int, str]:
+    """Fewest days of history the forecast accepts, and how that number is made up.
+
+    ``settings`` is a ForecastSettings; ``forecast_days`` counts from the day after the
+    history to the last forecast day. A one-step fit is given 2 x lag + k + 14 days (lag = the
+    fixed order or max_lag, k = calendar columns, 14 spare days so the fit is not degenerate);
+    a direct fit also the forecast days. With a backtest (strategy "auto" or backtest
+    residuals) each of the backtest_origins origins, backtest_every days apart, needs a direct
+    fit's days (and at least max_lag + forecast days + 30) before it.
+    """
+    lag = settings.order if settings.order is not None else settings.max_lag
+    annual = settings.annual is True or (
+        settings.annual == "auto" and history_days >= ANNUAL_AUTO_DAYS
+    )
+    holiday = bool(settings.holiday_dates or settings.holiday_country)
+    columns = (
+        1 + 6 * bool(settings.weekday) + 2 * settings.fourier_pairs * annual
+        + bool(settings.trend) + holiday
+    )  # fmt: skip
+    name = "order" if settings.order is not None else "max_lag"
+    one_step = 2 * lag + columns + FIT_SPARE_DAYS
+    reason = f"2 x {name} {lag} + {columns} calendar terms + {FIT_SPARE_DAYS} spare"
+    direct = one_step + forecast_days
+    direct_reason = f"{reason} + {forecast_days} forecast days"
+    if settings.strategy != "auto" and settings.residuals != "backtest":
+        return (direct, direct_reason) if settings.strategy == "direct" else (one_step, reason)
+    floor = settings.max_lag + forecast_days + BACKTEST_SPARE_DAYS
+    if floor > direct:
+        direct, direct_reason = floor, (
+            f"max_lag {settings.max_lag} + {forecast_days} forecast days + {BACKTEST_SPARE_DAYS}"
+        )
+    backtest = settings.backtest_origins * settings.backtest_every
+    return backtest + direct, (
+        f"{settings.backtest_origins} backtest origins x {settings.backtest_every} days + "
+        f"{direct} before the earliest origin = {direct_reason}"
+    )
+
+
+def check_history_length(
+    admissions: pd.Series, settings, forecast_days: int, source: str | Path
+) -> None:
+    """Refuse a daily series too short for the forecast (see :func:`days_needed`)."""
+    needed, reason = days_needed(settings, forecast_days, len(admissions))
+    if len(admissions) < needed:
+        raise PlannerError(
+            f"{source}: history too short: {len(admissions)} days "
+            f"({admissions.index[0].date()} to {admissions.index[-1].date()}), the forecast "
+            f"needs at least {needed} ({reason}); give a longer history or lower "
+            f"forecast.max_lag, horizon_weeks or forecast.backtest_origins"
+        )
 
 
 def episodes_end(episodes: pd.DataFrame) -> pd.Timestamp:

@@ -35,19 +35,48 @@ def check_target(target: Path, overwrite: bool) -> None:
         raise PlannerError(f"{target}: folder exists and is not empty (use --overwrite)")
 
 
+def _missing_parents(folder: Path) -> list[Path]:
+    """The folders above and including ``folder`` that do not exist yet, deepest first."""
+    missing = []
+    while not folder.exists():
+        missing.append(folder)
+        folder = folder.parent
+    return missing
+
+
 @contextmanager
 def atomic_folder(target: str | Path, overwrite: bool = False) -> Iterator[Path]:
     """Yield a temporary folder; on success it replaces ``target``; on any error (or
-    Ctrl-C) it is removed and ``target`` is left as it was."""
+    Ctrl-C) it is removed, with any parent folders made for it, and ``target`` is left as
+    it was.
+
+    An earlier ``target`` is moved aside (renamed) before the new folder is renamed into
+    place and deleted only after, so at every moment one complete folder is there.
+    """
     target = Path(target)
     check_target(target, overwrite)
+    made = _missing_parents(target.parent)
     target.parent.mkdir(parents=True, exist_ok=True)
     staging = Path(tempfile.mkdtemp(prefix=f".{target.name}.", dir=target.parent))
     try:
         yield staging
     except BaseException:
         shutil.rmtree(staging, ignore_errors=True)
+        for folder in made:
+            try:
+                folder.rmdir()
+            except OSError:
+                break
         raise
-    if target.exists():
-        shutil.rmtree(target)
-    staging.rename(target)
+    if not target.exists():
+        staging.rename(target)
+        return
+    aside = Path(tempfile.mkdtemp(prefix=f".{target.name}.old.", dir=target.parent))
+    target.rename(aside / target.name)
+    try:
+        staging.rename(target)
+    except BaseException:
+        (aside / target.name).rename(target)
+        shutil.rmtree(staging, ignore_errors=True)
+        raise
+    shutil.rmtree(aside, ignore_errors=True)

@@ -12,6 +12,7 @@ import pandas as pd
 from planner.errors import PlannerError
 from planner.history import (
     admissions_from_episodes,
+    check_history_length,
     completed_stays,
     episodes_end,
     inpatients_at,
@@ -53,9 +54,10 @@ class WardHistory:
 
 def load_history(scenario: Scenario) -> WardHistory:
     """Read and cross-check the scenario's history files."""
-    episodes = read_episodes(scenario.episodes_file) if scenario.episodes_file else None
+    form = scenario.history_format
+    episodes = read_episodes(scenario.episodes_file, form) if scenario.episodes_file else None
     if scenario.admissions_file is not None:
-        admissions = read_daily_admissions(scenario.admissions_file)
+        admissions = read_daily_admissions(scenario.admissions_file, form)
     else:
         admissions = admissions_from_episodes(episodes)
     first_free = admissions.index[-1] + pd.Timedelta(days=1)
@@ -71,6 +73,9 @@ def load_history(scenario: Scenario) -> WardHistory:
             f"{scenario.episodes_file}: has records on {late}, after the admissions history "
             f"ends ({admissions.index[-1].date()})"
         )
+    forecast_days = (start - first_free).days + scenario.horizon_days
+    source = scenario.admissions_file or scenario.episodes_file
+    check_history_length(admissions, scenario.forecast, forecast_days, source)
     return WardHistory(admissions, episodes, start)
 
 

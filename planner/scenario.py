@@ -17,6 +17,7 @@ from typing import Any
 
 from planner.errors import PlannerError
 from planner.forecast.settings import DemandAdjustment, ForecastSettings, Surge
+from planner.history import HistoryFormat
 from planner.schema import TABLES, TOP, validate
 from planner.simulate.settings import (
     BedChange,
@@ -59,6 +60,7 @@ class Scenario:
     ward: WardSettings
     costs: Costs
     resolved: dict[str, Any] = field(repr=False, compare=False)
+    history_format: HistoryFormat = field(default_factory=HistoryFormat)
 
     @property
     def horizon_days(self) -> int:
@@ -75,8 +77,15 @@ def demo_scenario_path() -> Path:
 
 
 def _read_toml(path: Path) -> dict[str, Any]:
+    if path.is_dir():
+        raise PlannerError(f"{path}: is a folder, not a scenario file")
     if not path.is_file():
         raise PlannerError(f"{path}: scenario file not found")
+    if path.suffix.lower() in (".csv", ".txt", ".tsv"):
+        raise PlannerError(
+            f"{path}: is a data file, not a scenario (.toml); name it under [history] "
+            f"in a scenario file and give that"
+        )
     try:
         with path.open("rb") as handle:
             return tomllib.load(handle)
@@ -270,4 +279,7 @@ def load_scenario(path: str | Path | None = None) -> Scenario:
         ward=_ward(document, where),
         costs=Costs(**{k: float(v) for k, v in _table(document, "costs").items()}),
         resolved=document,
+        history_format=HistoryFormat(
+            history["date_format"], history["timestamp_format"], history["fill_missing_days"]
+        ),
     )

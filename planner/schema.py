@@ -11,7 +11,7 @@ from __future__ import annotations
 import difflib
 import re
 from dataclasses import dataclass
-from datetime import date
+from datetime import date, datetime
 from typing import Any
 
 from planner.errors import PlannerError
@@ -20,7 +20,8 @@ from planner.errors import PlannerError
 @dataclass(frozen=True)
 class Key:
     """One scenario key. ``kind`` is one of: int, float, bool, str, date, hour ("HH:MM"),
-    path, auto_bool (true, false or "auto"), dates (list of dates), roster (7 whole numbers)."""
+    path, auto_bool (true, false or "auto"), dates (list of dates), roster (7 whole numbers),
+    date_format (a strptime format giving day, month and year)."""
 
     name: str
     kind: str
@@ -79,6 +80,27 @@ TABLES = (
                 None,
                 "Episode CSV with columns admitted_at,discharged_at; "
                 "empty discharged_at = still on the ward.",
+            ),
+            Key(
+                "date_format",
+                "date_format",
+                None,
+                "How the daily file writes dates, as a strptime format, e.g. "
+                '"%d/%m/%Y" for day-first 30/11/2026 (default: YYYY-MM-DD).',
+            ),
+            Key(
+                "timestamp_format",
+                "date_format",
+                None,
+                "How the episode file writes timestamps, e.g. "
+                '"%d/%m/%Y %H:%M" (default: ISO, YYYY-MM-DD HH:MM).',
+            ),
+            Key(
+                "fill_missing_days",
+                "bool",
+                False,
+                "Count days missing from the daily file as 0 admissions "
+                "(default: refuse a file with missing days).",
             ),
         ),
     ),
@@ -293,6 +315,17 @@ TABLES = (
 )
 
 _HOUR = re.compile(r"^([01]\d|2[0-3]):([0-5]\d)$")
+#: A day whose day, month and year all differ, to check that a date format keeps all three.
+_PROBE = datetime(2031, 11, 29, 13, 45)
+
+
+def _full_date_format(text: str) -> bool:
+    """Whether a strptime format writes and reads back day, month and year."""
+    try:
+        back = datetime.strptime(_PROBE.strftime(text), text)
+    except ValueError:
+        return False
+    return back.date() == _PROBE.date()
 
 
 def _kind_error(key: Key, value: Any) -> str | None:
@@ -308,6 +341,7 @@ def _kind_error(key: Key, value: Any) -> str | None:
         "auto_bool": 'true, false or "auto"',
         "dates": "a list of dates",
         "roster": "a list of 7 whole numbers (Monday..Sunday)",
+        "date_format": 'a strptime format with day, month and year, e.g. "%d/%m/%Y"',
     }[key.kind]
     ok = {
         "int": isinstance(value, int) and not isinstance(value, bool),
@@ -322,6 +356,7 @@ def _kind_error(key: Key, value: Any) -> str | None:
         "roster": isinstance(value, list)
         and len(value) == 7
         and all(isinstance(v, int) and not isinstance(v, bool) and v >= 0 for v in value),
+        "date_format": isinstance(value, str) and _full_date_format(value),
     }[key.kind]
     return None if ok else f"must be {expected}, got {value!r}"
 

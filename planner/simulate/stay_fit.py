@@ -1,5 +1,10 @@
 """Length of stay learned from episodes or given in a scenario: maximum-likelihood fits, AIC
-choice between families, and the scenario's change of the mean stay (one rescaling)."""
+choice between families, and the scenario's change of the mean stay (one rescaling).
+
+With stays still in progress (right-censored, see :mod:`planner.simulate.survival`) the fits
+maximise the censored log-likelihood, sum of log f(x) over ended stays plus log S(x) over
+censored ones, and "empirical" is the Kaplan-Meier estimate.
+"""
 
 from __future__ import annotations
 
@@ -7,7 +12,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
+from scipy import optimize, stats
 
 from planner.errors import PlannerError
 from planner.simulate.settings import StaySettings
@@ -25,6 +30,7 @@ from planner.simulate.stays import (
     _positive,
     _stays_array,
 )
+from planner.simulate.survival import KaplanMeierStays, _check
 
 
 @dataclass(frozen=True)
@@ -51,15 +57,20 @@ def _fit_family(name: str, x: np.ndarray) -> tuple[_Parametric, int]:
     return Weibull(float(shape), float(scale)), 2
 
 
-def fit_stays(stays: np.ndarray, model: str = "best") -> StayFit:
+def fit_stays(
+    stays: np.ndarray, model: str = "best", observed: np.ndarray | None = None
+) -> StayFit:
     """Fit length of stay (days) by maximum likelihood.
 
     ``model``: a parametric family, "best" (lowest AIC among lognormal, gamma and weibull) or
     "empirical" (resample the stays). The AIC of every parametric family, exponential
-    included, is reported whatever the model.
+    included, is reported whatever the model. ``observed`` (one bool per stay, False = still
+    in progress, censored at that length) switches to :func:`fit_censored_stays`.
     """
     if model not in MODELS:
         raise PlannerError(f"model must be one of {', '.join(MODELS)}; got {model!r}")
+    if observed is not None:
+        return fit_censored_stays(stays, observed, model)
     x = _stays_array(stays)
     if np.ptp(x) == 0:
         raise PlannerError("stays: all lengths of stay are equal; cannot fit a distribution")
@@ -70,6 +81,76 @@ def fit_stays(stays: np.ndarray, model: str = "best") -> StayFit:
         aic[name] = 2 * k - 2 * float(np.sum(fitted.scipy.logpdf(x)))
     if model == "empirical":
         chosen: StayDistribution = Empirical(x)
+    elif model == "best":
+        chosen = fits[min(BEST_CANDIDATES, key=aic.__getitem__)]
+    else:
+        chosen = fits[model]
+    return StayFit(chosen, aic, int(x.size))
+
+
+def _censored_log_likelihood(family: _Parametric, x: np.ndarray, ended: np.ndarray) -> float:
+    """Sum of log f over ended stays and log S over censored stays (days)."""
+    dist = family.scipy
+    return float(np.sum(dist.logpdf(x[ended])) + np.sum(dist.logsf(x[~ended])))
+
+
+def _build(name: str, theta: np.ndarray) -> _Parametric:
+    """A family from unconstrained parameters (log scales; mu for the lognormal)."""
+    if name == "lognormal":
+        return Lognormal(float(theta[0]), float(np.exp(theta[1])))
+    family = Gamma if name == "gamma" else Weibull
+    return family(float(np.exp(theta[0])), float(np.exp(theta[1])))
+
+
+def _start(fitted: _Parametric) -> np.ndarray:
+    if isinstance(fitted, Lognormal):
+        return np.array([fitted.mu, math.log(fitted.sigma)])
+    return np.log([fitted.shape, fitted.scale])
+
+
+def _fit_censored_family(name: str, x: np.ndarray, ended: np.ndarray) -> tuple[_Parametric, int]:
+    """Censored MLE (days); starts from the uncensored fit of the ended stays."""
+    if name == "exponential":
+        # Closed form: total time on the ward over the number of ended stays.
+        return Exponential(float(x.sum() / np.count_nonzero(ended))), 1
+    done = x[ended] if np.ptp(x[ended]) > 0 else x
+    start = _start(_fit_family(name, done)[0])
+
+    def negative(theta: np.ndarray) -> float:
+        try:
+            value = -_censored_log_likelihood(_build(name, theta), x, ended)
+        except PlannerError:
+            return 1e300
+        return value if math.isfinite(value) else 1e300
+
+    best = optimize.minimize(
+        negative,
+        start,
+        method="Nelder-Mead",
+        options={"xatol": 1e-8, "fatol": 1e-10, "maxiter": 4000},
+    )
+    return _build(name, best.x), 2
+
+
+def fit_censored_stays(durations: np.ndarray, observed: np.ndarray, model: str = "best") -> StayFit:
+    """Fit length of stay (days) to ended and censored stays by censored maximum likelihood.
+
+    ``durations``: stay lengths (days, > 0), the full stay when ``observed`` is True, the stay
+    so far when False. ``model`` as in :func:`fit_stays`; "empirical" gives the Kaplan-Meier
+    distribution. AIC = 2 k - 2 (censored log-likelihood at the MLE).
+    """
+    if model not in MODELS:
+        raise PlannerError(f"model must be one of {', '.join(MODELS)}; got {model!r}")
+    x, ended = _check(durations, observed)
+    if np.ptp(x) == 0:
+        raise PlannerError("stays: all lengths of stay are equal; cannot fit a distribution")
+    fits, aic = {}, {}
+    for name in PARAMETRIC_MODELS:
+        fitted, k = _fit_censored_family(name, x, ended)
+        fits[name] = fitted
+        aic[name] = 2 * k - 2 * _censored_log_likelihood(fitted, x, ended)
+    if model == "empirical":
+        chosen: StayDistribution = KaplanMeierStays(x, ended)
     elif model == "best":
         chosen = fits[min(BEST_CANDIDATES, key=aic.__getitem__)]
     else:
@@ -90,12 +171,15 @@ def _from_mean_sd(model: str, mean: float, sd: float | None) -> StayDistribution
     return family.from_mean_sd(mean, sd)
 
 
-def stay_distribution(settings: StaySettings, stays: np.ndarray | None) -> StayDistribution:
+def stay_distribution(
+    settings: StaySettings, stays: np.ndarray | None, observed: np.ndarray | None = None
+) -> StayDistribution:
     """The length-of-stay distribution (days) a scenario asks for.
 
     With ``settings.mean`` (and ``sd``) the parametric family is built from them; "best" and
     "empirical" then mean lognormal (there is nothing to resample or compare). Otherwise the
-    model is fitted to the episode ``stays``. Finally every stay is multiplied by
+    model is fitted to the episode ``stays`` (with ``observed``, False for stays still in
+    progress, by censored maximum likelihood / Kaplan-Meier). Finally every stay is multiplied by
     ``(mean + change_days) / mean * scale``, so the mean becomes
     ``(mean + change_days) * scale`` and the coefficient of variation is kept.
     """
@@ -108,7 +192,7 @@ def stay_distribution(settings: StaySettings, stays: np.ndarray | None) -> StayD
     elif stays is None or np.size(stays) == 0:
         raise PlannerError("stays: no episodes to fit the length of stay to; give stay.mean")
     else:
-        distribution = fit_stays(stays, settings.model).distribution
+        distribution = fit_stays(stays, settings.model, observed).distribution
     scale = _positive(settings.scale, "stay.scale")
     if not math.isfinite(settings.change_days):
         raise PlannerError(f"stay.change_days must be a finite number, got {settings.change_days}")
