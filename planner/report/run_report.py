@@ -12,6 +12,12 @@ from planner.report.weekly import any_shortfall, weekly_table
 
 HEADLINE_WEEKS = 4
 
+WEEKLY_NOTE = (
+    "<p>Probabilities are shares of the simulated paths, with their Monte Carlo standard "
+    "error; counts and hours are means over paths. Patients finding no free bed waited for "
+    "one or were placed elsewhere. All columns are in weekly.csv.</p>"
+)
+
 #: Columns of the weekly table printed in the terminal, with their short headers.
 TERMINAL_COLUMNS = {
     "week_start": "week from",
@@ -36,6 +42,34 @@ def terminal_table(weekly: pd.DataFrame) -> str:
     for column in ("peak p50", "peak p90"):
         shown[column] = shown[column].map(lambda v: f"{v:.0f}")
     return shown.to_string(index=False)
+
+
+def page_table(weekly: pd.DataFrame) -> pd.DataFrame:
+    """The weekly table with readable headers and standard errors beside the values."""
+
+    def with_se(column: str) -> pd.Series:
+        return (
+            weekly[column].map("{:.1%}".format)
+            + " ± "
+            + weekly[f"{column}_se"].map("{:.1%}".format)
+        )
+
+    return pd.DataFrame(
+        {
+            "week from": weekly["week_start"],
+            "P(no free bed at some moment)": with_se("p_bed_shortfall"),
+            "patients finding no free bed": weekly["expected_patients_affected"].map(
+                "{:.1f}".format
+            ),
+            "hours waited": weekly["expected_wait_hours"].map("{:.0f}".format),
+            "peak census, median / 90%": weekly["peak_census_p50"].map("{:.0f}".format)
+            + " / "
+            + weekly["peak_census_p90"].map("{:.0f}".format),
+            "beds open": weekly["beds_open"].map("{:.1f}".format),
+            "P(a shift short of nurses)": with_se("p_staff_shortfall"),
+            "short shifts": weekly["expected_short_shifts"].map("{:.1f}".format),
+        }
+    )
 
 
 def headline(run, weeks: int = HEADLINE_WEEKS) -> str:
@@ -164,12 +198,9 @@ def run_page(run, weekly: pd.DataFrame, pictures: dict[str, bytes]) -> str:
         f"{scenario.description} Forecast {run.history.start.date()} to {last.date()}, "
         f"{run.paths} sample paths, seed {run.seed}."
     )
-    formats = {c: ".1%" for c in weekly.columns if c.startswith("p_")}
-    formats |= {c: ".2f" for c in weekly.columns if c.startswith("expected_")}
-    formats |= {"beds_open": ".1f", "peak_census_p50": ".0f", "peak_census_p90": ".0f"}
     sections = [
         ("", f'<p class="headline">{html.escape(headline(run))}</p>'),
-        ("Week by week", html.table(weekly, formats)),
+        ("Week by week", html.table(page_table(weekly)) + WEEKLY_NOTE),
         ("Chance of running short", html.image(pictures["shortfall.png"], "weekly shortfall")),
         ("Census against beds", html.image(pictures["census.png"], "census fan chart")),
         ("Admissions", html.image(pictures["admissions.png"], "admissions fan chart")),

@@ -12,7 +12,7 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize, stats
+from scipy import optimize, special, stats
 
 from planner.errors import PlannerError
 from planner.simulate.settings import StaySettings
@@ -89,7 +89,24 @@ def fit_stays(
 
 
 def _censored_log_likelihood(family: _Parametric, x: np.ndarray, ended: np.ndarray) -> float:
-    """Sum of log f over ended stays and log S over censored stays (days)."""
+    """Sum of log f over ended stays and log S over censored stays (days), written out per
+    family (the same values as scipy.stats ``logpdf`` / ``logsf``, much faster)."""
+    if isinstance(family, Lognormal):
+        z = (np.log(x) - family.mu) / family.sigma
+        log_f = -np.log(x[ended]) - math.log(family.sigma) - 0.5 * math.log(2 * math.pi)
+        return float(np.sum(log_f - 0.5 * z[ended] ** 2) + np.sum(special.log_ndtr(-z[~ended])))
+    if isinstance(family, Weibull):
+        k, scale = family.shape, family.scale
+        power = (x / scale) ** k
+        log_f = math.log(k / scale) + (k - 1) * np.log(x[ended] / scale) - power[ended]
+        return float(np.sum(log_f) - np.sum(power[~ended]))
+    if isinstance(family, Gamma):
+        k, scale = family.shape, family.scale
+        y = x[ended]
+        log_f = (k - 1) * np.log(y) - y / scale - special.gammaln(k) - k * math.log(scale)
+        with np.errstate(divide="ignore"):
+            log_s = np.log(special.gammaincc(k, x[~ended] / scale))
+        return float(np.sum(log_f) + np.sum(log_s))
     dist = family.scipy
     return float(np.sum(dist.logpdf(x[ended])) + np.sum(dist.logsf(x[~ended])))
 
