@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+from dataclasses import replace
 
 import numpy as np
 import pandas as pd
@@ -131,3 +132,19 @@ def test_forecast_csv_columns(ward_folder, tmp_path):
     assert list(table.columns) == ["date", "mean", "q05", "q10", "q25", "q50", "q75", "q90", "q95"]
     assert len(table) == 14
     assert (table[["q05", "q25", "q50", "q75", "q95"]].diff(axis=1).iloc[:, 1:] >= 0).all().all()
+
+
+def test_backtest_command_shows_the_backtest_that_chose_the_strategy(ward_folder):
+    from planner.pipeline import backtest_step, forecast_step, load_history
+
+    scenario = load_scenario(plan(ward_folder, "auto", 9, paths=60))
+    settings = replace(scenario.forecast, strategy="auto", backtest_paths=60)
+    scenario = replace(scenario, forecast=settings)
+    history = load_history(scenario)
+    chosen = forecast_step(scenario, history, 60, 3).summary
+    shown = backtest_step(scenario, history, 60, 3)
+    pd.testing.assert_frame_equal(chosen.backtest.table, shown.table)
+    overall = shown.overall()["pinball"]
+    assert chosen.strategy == (
+        "recursive" if overall["recursive"] <= overall["direct"] else "direct"
+    )

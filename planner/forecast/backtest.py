@@ -15,6 +15,9 @@ model, not the scenario.
 MAE and RMSE score the paths' mean; MASE scales each origin's absolute errors by that origin's
 training-data seasonal naive error (m = 7); pinball loss averages the levels 0.05 .. 0.95;
 coverage_80 / interval_score_80 use the 0.1 and 0.9 quantiles, coverage_95 the 0.025 and 0.975.
+Admissions are whole numbers, so the interval [q10, q90] holds more than 80% of the model's own
+paths (all of the paths on its end points count); ``nominal_80`` is that share, averaged over
+the scored days: a calibrated model has coverage_80 close to nominal_80, not to 0.80.
 
 Out-of-sample residuals for ``residuals="backtest"``: recursive, the one-step errors on every
 day of the window (the fit of the latest origin predicting each day from the observed lags);
@@ -46,6 +49,7 @@ COLUMNS = [
     "coverage_80",
     "coverage_95",
     "interval_score_80",
+    "nominal_80",
 ]
 
 
@@ -101,7 +105,10 @@ def backtest_arrays(
             )
             counts = to_counts(result.paths[:, : observed.shape[0]], rounding_rng)
             quantiles = np.quantile(counts, SCORED_LEVELS, axis=0).T
-            scored[strategy].append((observed, counts.mean(axis=0), quantiles, scale))
+            inside = (counts >= quantiles[:, 2]) & (counts <= quantiles[:, 6])
+            scored[strategy].append(
+                (observed, counts.mean(axis=0), quantiles, scale, inside.mean(axis=0))
+            )
             if strategy == "recursive":
                 end = min(origin + settings.backtest_every, n)
                 X, y = design(values[:end], result.one_step.order, deterministic_all[:end])
@@ -128,6 +135,7 @@ def _score(strategy: str, records, horizon: int) -> list[tuple]:
     quantiles = np.vstack([r[2] for r in records])
     scale = np.concatenate([np.full(r[0].shape[0], r[3]) for r in records])
     week = np.concatenate([np.arange(r[0].shape[0]) // 7 + 1 for r in records])
+    nominal = np.concatenate([r[4] for r in records])
     rows = []
     for horizon_week in [0] + list(range(1, (horizon + 6) // 7 + 1)):
         keep = week == horizon_week if horizon_week else np.ones(actual.shape[0], bool)
@@ -146,6 +154,7 @@ def _score(strategy: str, records, horizon: int) -> list[tuple]:
                 metrics.coverage(y, q[:, 2], q[:, 6]),
                 metrics.coverage(y, q[:, 0], q[:, -1]),
                 metrics.interval_score(y, q[:, 2], q[:, 6], alpha=0.2),
+                float(nominal[keep].mean()),
             )
         )
     return rows

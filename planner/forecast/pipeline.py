@@ -53,18 +53,15 @@ def run_backtest(
     history: pd.Series, settings, horizon: int, n_paths: int, rng: np.random.Generator
 ) -> BacktestResult:
     """Rolling-origin backtest of recursive, direct and seasonal naive forecasts of ``horizon``
-    days (see :mod:`planner.forecast.backtest`)."""
+    days (see :mod:`planner.forecast.backtest`). Given a generator made from the same seed, it
+    is the very backtest :func:`forecast_admissions` runs to choose the "auto" strategy."""
     check_settings(settings, horizon, n_paths)
-    terms = terms_for_history(settings, history.index)
+    dates = pd.DatetimeIndex(history.index)
+    terms = terms_for_history(settings, dates)
+    keep = tuple(observed_columns(terms, dates))
+    backtest_rng = rng.spawn(3)[0]
     return backtest_arrays(
-        history.to_numpy(dtype=float),
-        history.index,
-        terms,
-        settings,
-        horizon,
-        n_paths,
-        rng,
-        observed_columns(terms, history.index),
+        history.to_numpy(dtype=float), dates, terms, settings, horizon, n_paths, backtest_rng, keep
     )
 
 
