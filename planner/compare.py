@@ -43,8 +43,13 @@ class Comparison:
 
 
 def _forecast_key(scenario: Scenario) -> tuple:
-    return (scenario.admissions_file, scenario.episodes_file, scenario.forecast,
-            scenario.horizon_weeks, scenario.start)  # fmt: skip
+    return (
+        scenario.admissions_file,
+        scenario.episodes_file,
+        scenario.forecast,
+        scenario.horizon_weeks,
+        scenario.start,
+    )
 
 
 def _check_alike(scenarios: list[Scenario]) -> None:
@@ -114,8 +119,10 @@ def cost_table(runs: tuple[RunResult, ...]) -> pd.DataFrame | None:
         costs, weekly = run.scenario.costs, run.weekly
         plan = costs.bed_day * weekly.bed_days.sum() + costs.nurse_shift * weekly.nurse_shifts.sum()
         affected = weekly.patients_affected.sum(axis=1)
-        harm = (costs.diverted_patient * weekly.diverted.sum(axis=1).mean()
-                + costs.waiting_hour * weekly.wait_hours.sum(axis=1).mean())  # fmt: skip
+        harm = (
+            costs.diverted_patient * weekly.diverted.sum(axis=1).mean()
+            + costs.waiting_hour * weekly.wait_hours.sum(axis=1).mean()
+        )
         avoided, avoided_se = mean_se((base_affected - affected)[:, None])
         rows.append(
             {

@@ -70,14 +70,32 @@ def test_run_command_writes_the_report(ward_folder, tmp_path):
         cli, ["run", str(plan(ward_folder, "small", 9, "wait", 40)), "--out", str(out)]
     )
     assert result.exit_code == 0, result.output
-    expected = {"weekly.csv", "daily.csv", "shifts.csv", "forecast.csv", "report.html",
-                "run.json", "admissions.png", "census.png", "shortfall.png", "nurses.png"}  # fmt: skip
+    expected = {
+        "weekly.csv",
+        "daily.csv",
+        "shifts.csv",
+        "forecast.csv",
+        "report.html",
+        "run.json",
+        "admissions.png",
+        "census.png",
+        "shortfall.png",
+        "nurses.png",
+    }
     assert expected <= {p.name for p in out.iterdir()}
     weekly = pd.read_csv(out / "weekly.csv")
-    for column in ("week_start", "p_bed_shortfall", "p_bed_shortfall_se",
-                   "expected_patients_affected", "expected_wait_hours", "peak_census_p50",
-                   "peak_census_p90", "beds_open", "p_staff_shortfall",
-                   "expected_short_shifts"):  # fmt: skip
+    for column in (
+        "week_start",
+        "p_bed_shortfall",
+        "p_bed_shortfall_se",
+        "expected_patients_affected",
+        "expected_wait_hours",
+        "peak_census_p50",
+        "peak_census_p90",
+        "beds_open",
+        "p_staff_shortfall",
+        "expected_short_shifts",
+    ):
         assert column in weekly.columns
     assert len(weekly) == 2
     assert ((weekly["p_bed_shortfall"] >= 0) & (weekly["p_bed_shortfall"] <= 1)).all()
@@ -126,8 +144,9 @@ def test_commands_write_their_files(ward_folder, tmp_path, command, files):
 
 def test_forecast_csv_columns(ward_folder, tmp_path):
     out = tmp_path / "f"
-    CliRunner().invoke(cli, ["forecast", str(plan(ward_folder, "f", 9, paths=30)), "--out",
-                             str(out)])  # fmt: skip
+    CliRunner().invoke(
+        cli, ["forecast", str(plan(ward_folder, "f", 9, paths=30)), "--out", str(out)]
+    )
     table = pd.read_csv(out / "forecast.csv")
     assert list(table.columns) == ["date", "mean", "q05", "q10", "q25", "q50", "q75", "q90", "q95"]
     assert len(table) == 14

@@ -51,18 +51,27 @@ def write_compare_files(comparison, folder: Path) -> None:
     (folder / "comparison.html").write_text(compare_page(comparison, picture))
     first = comparison.runs[0]
     inputs = sorted(
-        {p for run in comparison.runs for p in (run.scenario.admissions_file,
-                                                run.scenario.episodes_file) if p}
-    )  # fmt: skip
+        {
+            p
+            for run in comparison.runs
+            for p in (run.scenario.admissions_file, run.scenario.episodes_file)
+            if p
+        }
+    )
     extra = {
         "scenarios": {str(run.scenario.source): run.scenario.resolved for run in comparison.runs},
         "start": first.history.start.date(),
         "horizon_days": first.scenario.horizon_days,
     }
     record = run_record(
-        "compare", first.scenario.source, first.scenario.resolved, inputs, first.seed,
-        first.paths, extra,
-    )  # fmt: skip
+        "compare",
+        first.scenario.source,
+        first.scenario.resolved,
+        inputs,
+        first.seed,
+        first.paths,
+        extra,
+    )
     write_json(record, folder / "run.json")
 
 
@@ -77,10 +86,18 @@ def compare_page(comparison, picture: bytes) -> str:
         "expected_short_shifts": ".1f",
     }
     weekly = comparison.table[
-        ["scenario", "week_start", "p_bed_shortfall", "diff_p_bed_shortfall",
-         "diff_p_bed_shortfall_se", "diff_p_bed_shortfall_se_independent", "p_staff_shortfall",
-         "diff_p_staff_shortfall", "expected_patients_affected"]
-    ]  # fmt: skip
+        [
+            "scenario",
+            "week_start",
+            "p_bed_shortfall",
+            "diff_p_bed_shortfall",
+            "diff_p_bed_shortfall_se",
+            "diff_p_bed_shortfall_se_independent",
+            "p_staff_shortfall",
+            "diff_p_staff_shortfall",
+            "expected_patients_affected",
+        ]
+    ]
     weekly_formats = {c: ".1%" for c in weekly.columns if c.startswith(("p_", "diff_p"))}
     weekly_formats["expected_patients_affected"] = ".2f"
     sections = [
@@ -96,8 +113,11 @@ def compare_page(comparison, picture: bytes) -> str:
     if comparison.costs is not None:
         costs = comparison.costs
         formats = {c: ",.0f" for c in costs.columns if c != "scenario"}
-        formats |= {"expected_shortfalls": ".1f", "shortfalls_avoided": ".1f",
-                    "shortfalls_avoided_se": ".2f"}  # fmt: skip
+        formats |= {
+            "expected_shortfalls": ".1f",
+            "shortfalls_avoided": ".1f",
+            "shortfalls_avoided_se": ".2f",
+        }
         sections.append(("Costs over the horizon", html.table(costs, formats)))
     sections.append(("Week by week", html.table(weekly, weekly_formats)))
     subtitle = (
