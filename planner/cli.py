@@ -38,9 +38,7 @@ def user_errors(command: Callable[..., Any]) -> Callable[..., Any]:
     return wrapper
 
 
-scenario_argument = click.argument(
-    "scenario", required=False, type=click.Path(dir_okay=False, path_type=Path)
-)
+scenario_argument = click.argument("scenario", required=False, type=click.Path(path_type=Path))
 out_option = click.option(
     "--out",
     type=click.Path(file_okay=False, path_type=Path),

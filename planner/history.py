@@ -29,12 +29,6 @@ import pandas as pd
 from planner.errors import PlannerError
 
 HOURS_PER_DAY = 24.0
-#: Days of history from which ``forecast.annual = "auto"`` switches the annual terms on.
-ANNUAL_AUTO_DAYS = 730
-#: Training days the forecast engine keeps before a backtest origin beyond max_lag + horizon.
-BACKTEST_SPARE_DAYS = 30
-#: Days of data beyond the number of coefficients that a fit is given, so it is not degenerate.
-FIT_SPARE_DAYS = 14
 _SLASHED = re.compile(r"^\d{1,2}[/.\-]\d{1,2}[/.\-]\d{2,4}\b")
 
 
@@ -209,69 +203,18 @@ def read_episodes(path: str | Path, form: HistoryFormat | None = None) -> pd.Dat
             f"admitted_at {frame['admitted_at'].iloc[row]}"
         )
     episodes = pd.DataFrame({"admitted_at": admitted, "discharged_at": discharged})
-    repeated = episodes.duplicated().to_numpy()
+    # Two completed stays with the same admission and discharge times are a record exported
+    # twice; open episodes may share an admission minute on a busy ward.
+    repeated = (episodes.duplicated() & discharged.notna()).to_numpy()
     if repeated.any():
         row = int(np.flatnonzero(repeated)[0])
-        same = (episodes == episodes.iloc[row]) | (episodes.isna() & episodes.iloc[row].isna())
-        first = int(np.flatnonzero(same.all(axis=1).to_numpy())[0])
+        same = (episodes == episodes.iloc[row]).all(axis=1).to_numpy()
         raise PlannerError(
-            f"{path}: line {row + 2}: the same episode as line {first + 2} "
-            f"({frame['admitted_at'].iloc[row]} to {frame['discharged_at'].iloc[row] or 'now'}); "
-            f"remove duplicated records"
+            f"{path}: line {row + 2}: the same episode as line {np.flatnonzero(same)[0] + 2} "
+            f"({frame['admitted_at'].iloc[row]} to {frame['discharged_at'].iloc[row]}); "
+            f"remove the duplicated record"
         )
     return episodes.sort_values("admitted_at", kind="stable").reset_index(drop=True)
-
-
-def days_needed(settings, forecast_days: int, history_days: int) -> tuple[int, str]:
-    """Fewest days of history the forecast accepts, and how that number is made up.
-
-    ``settings`` is a ForecastSettings; ``forecast_days`` counts from the day after the
-    history to the last forecast day. A one-step fit is given 2 x lag + k + 14 days (lag = the
-    fixed order or max_lag, k = calendar columns, 14 spare days so the fit is not degenerate);
-    a direct fit also the forecast days. With a backtest (strategy "auto" or backtest
-    residuals) each of the backtest_origins origins, backtest_every days apart, needs a direct
-    fit's days (and at least max_lag + forecast days + 30) before it.
-    """
-    lag = settings.order if settings.order is not None else settings.max_lag
-    annual = settings.annual is True or (
-        settings.annual == "auto" and history_days >= ANNUAL_AUTO_DAYS
-    )
-    holiday = bool(settings.holiday_dates or settings.holiday_country)
-    columns = (
-        1 + 6 * bool(settings.weekday) + 2 * settings.fourier_pairs * annual
-        + bool(settings.trend) + holiday
-    )  # fmt: skip
-    name = "order" if settings.order is not None else "max_lag"
-    one_step = 2 * lag + columns + FIT_SPARE_DAYS
-    reason = f"2 x {name} {lag} + {columns} calendar terms + {FIT_SPARE_DAYS} spare"
-    direct = one_step + forecast_days
-    direct_reason = f"{reason} + {forecast_days} forecast days"
-    if settings.strategy != "auto" and settings.residuals != "backtest":
-        return (direct, direct_reason) if settings.strategy == "direct" else (one_step, reason)
-    floor = settings.max_lag + forecast_days + BACKTEST_SPARE_DAYS
-    if floor > direct:
-        direct, direct_reason = floor, (
-            f"max_lag {settings.max_lag} + {forecast_days} forecast days + {BACKTEST_SPARE_DAYS}"
-        )
-    backtest = settings.backtest_origins * settings.backtest_every
-    return backtest + direct, (
-        f"{settings.backtest_origins} backtest origins x {settings.backtest_every} days + "
-        f"{direct} before the earliest origin = {direct_reason}"
-    )
-
-
-def check_history_length(
-    admissions: pd.Series, settings, forecast_days: int, source: str | Path
-) -> None:
-    """Refuse a daily series too short for the forecast (see :func:`days_needed`)."""
-    needed, reason = days_needed(settings, forecast_days, len(admissions))
-    if len(admissions) < needed:
-        raise PlannerError(
-            f"{source}: history too short: {len(admissions)} days "
-            f"({admissions.index[0].date()} to {admissions.index[-1].date()}), the forecast "
-            f"needs at least {needed} ({reason}); give a longer history or lower "
-            f"forecast.max_lag, horizon_weeks or forecast.backtest_origins"
-        )
 
 
 def episodes_end(episodes: pd.DataFrame) -> pd.Timestamp:

@@ -10,9 +10,9 @@ import numpy as np
 import pandas as pd
 
 from planner.errors import PlannerError
+from planner.forecast.requirements import check_history_length
 from planner.history import (
     admissions_from_episodes,
-    check_history_length,
     completed_stays,
     episodes_end,
     inpatients_at,

@@ -9,6 +9,7 @@ from pathlib import Path
 import pytest
 
 from planner.errors import PlannerError
+from planner.history import HistoryFormat
 from planner.scenario import demo_scenario_path, load_scenario
 from planner.schema import TABLES, TOP, document
 
@@ -152,3 +153,42 @@ def test_docs_file_is_current():
 def test_copied_demo_runs_from_elsewhere(tmp_path):
     shutil.copytree(DEMO, tmp_path / "copy")
     assert load_scenario(tmp_path / "copy" / "baseline.toml").episodes_file.is_file()
+
+
+def test_history_format_keys_are_read(tmp_path):
+    path = tmp_path / "plan.toml"
+    path.write_text(
+        '[history]\nadmissions = "ward.csv"\ndate_format = "%d.%m.%Y"\n'
+        'timestamp_format = "%d/%m/%Y %H:%M"\nfill_missing_days = true\n[stay]\nmean = 4.0\n'
+    )
+    form = load_scenario(path).history_format
+    assert (form.date_format, form.timestamp_format, form.fill_missing_days) == (
+        "%d.%m.%Y",
+        "%d/%m/%Y %H:%M",
+        True,
+    )
+    assert load_scenario(scenario(tmp_path, "")).history_format == HistoryFormat()
+
+
+@pytest.mark.parametrize(
+    ("line", "message"),
+    [
+        ('date_format = "%d/%m"', "history.date_format: must be a strptime format"),
+        ('date_format = "%Y-%m-%d %Q"', "history.date_format: must be a strptime format"),
+        ("date_format = 31", "history.date_format: must be a strptime format"),
+        ('fill_missing_days = "yes"', "history.fill_missing_days: must be true or false"),
+    ],
+)
+def test_bad_history_format_keys(tmp_path, line, message):
+    path = tmp_path / "plan.toml"
+    path.write_text(f'[history]\nadmissions = "ward.csv"\n{line}\n[stay]\nmean = 4.0\n')
+    with pytest.raises(PlannerError, match=message):
+        load_scenario(path)
+
+
+def test_folder_or_data_file_given_as_scenario(tmp_path):
+    with pytest.raises(PlannerError, match="is a folder, not a scenario file"):
+        load_scenario(tmp_path)
+    (tmp_path / "ward.csv").write_text("date,admissions\n2026-01-01,3\n")
+    with pytest.raises(PlannerError, match=r"ward.csv: is a data file, not a scenario \(.toml\)"):
+        load_scenario(tmp_path / "ward.csv")

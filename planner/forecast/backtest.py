@@ -8,7 +8,8 @@ deterministic columns is fixed once from the whole history; their coefficients a
 
 Origins whose target window runs past the end of the history are truncated: they are scored on
 the days that are observed, so late horizon weeks are scored on fewer origins (column ``days``).
-Origins leaving too little training data (``max_lag + H + 30`` days) are skipped.
+Origins leaving too little training data for a direct fit (and at least ``max_lag + H + 30``
+days, see :mod:`planner.forecast.requirements`) are skipped.
 The backtest's own paths use in-sample residuals and ignore demand adjustments: it scores the
 model, not the scenario.
 
@@ -35,6 +36,7 @@ from planner.forecast import metrics
 from planner.forecast.ar import design
 from planner.forecast.bootstrap import to_counts
 from planner.forecast.paths import STRATEGIES, model_paths
+from planner.forecast.requirements import origin_days
 from planner.forecast.result import QUANTILE_LEVELS, BacktestResult
 
 SCORED_LEVELS = (0.025,) + QUANTILE_LEVELS + (0.975,)
@@ -54,11 +56,12 @@ COLUMNS = [
 
 
 def origin_positions(n: int, settings, horizon: int) -> np.ndarray:
-    """0-based positions of the first forecast day of each usable origin, ascending."""
+    """0-based positions of the first forecast day of each usable origin, ascending: those
+    with the training days :func:`planner.forecast.requirements.origin_days` asks for."""
     if settings.backtest_origins < 1 or settings.backtest_every < 1:
         raise PlannerError("backtest_origins and backtest_every must be >= 1")
     positions = n - settings.backtest_every * np.arange(settings.backtest_origins, 0, -1)
-    usable = positions[positions >= settings.max_lag + horizon + 30]
+    usable = positions[positions >= origin_days(settings, horizon, n)[0]]
     if usable.shape[0] == 0:
         raise PlannerError(
             f"history: {n} days are too few for a backtest at horizon {horizon} "
