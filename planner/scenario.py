@@ -18,7 +18,8 @@ from typing import Any
 from planner.errors import PlannerError
 from planner.forecast.settings import DemandAdjustment, ForecastSettings, Surge
 from planner.history import HistoryFormat
-from planner.schema import TABLES, TOP, validate
+from planner.schema import TABLES, TOP
+from planner.schema_checks import validate
 from planner.simulate.settings import (
     BedChange,
     RosterOverride,
@@ -27,6 +28,7 @@ from planner.simulate.settings import (
     StaySettings,
     WardSettings,
 )
+from planner.simulate.staffing import validate_staffing
 
 DEMO_NAME = "baseline.toml"
 
@@ -168,22 +170,6 @@ def _shifts(document: dict[str, Any], where: str) -> tuple[Shift, ...]:
         )
         for item in items
     )
-    names = [shift.name for shift in shifts]
-    if len(set(names)) != len(names):
-        raise PlannerError(f"{where}: staffing.shift: shift names must differ ({names})")
-    covered = [0] * (24 * 60)
-    for shift in shifts:
-        first = round(shift.start_hour * 60)
-        for minute in range(first, first + round(shift.length_hours * 60)):
-            covered[minute % len(covered)] += 1
-    if max(covered) > 1 or min(covered) == 0:
-        problem = "overlap" if max(covered) > 1 else "leave hours uncovered"
-        # The first minute that goes wrong, just after one that is right (circularly).
-        at = next(i for i, n in enumerate(covered) if n != 1 and covered[i - 1] == 1)
-        raise PlannerError(
-            f"{where}: staffing.shift: shifts {problem} (at {at // 60:02d}:{at % 60:02d}); "
-            f"they must cover the 24 hours exactly once"
-        )
     return shifts
 
 
@@ -207,6 +193,10 @@ def _ward(document: dict[str, Any], where: str) -> WardSettings:
     staffing = StaffingSettings(
         shifts, _table(document, "staffing")["minimum_nurses"], tuple(overrides)
     )
+    try:
+        validate_staffing(staffing)
+    except PlannerError as error:
+        raise PlannerError(f"{where}: {error}") from None
     return WardSettings(beds["base"], tuple(changes), beds["policy"], staffing)
 
 

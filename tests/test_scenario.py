@@ -87,14 +87,14 @@ def test_extends_cycle_is_refused(tmp_path):
         (
             "[[staffing.shift]]\nname = 'day'\nstart = '07:00'\nend = '19:00'\n"
             "patients_per_nurse = 4\nroster = [1,1,1,1,1,1,1]\n",
-            "shifts leave hours uncovered (at 19:00)",
+            "hours uncovered, gap between 'day' (ends 19:00) and 'day' (starts 07:00)",
         ),
         (
             "[[staffing.shift]]\nname = 'day'\nstart = '07:00'\nend = '20:00'\n"
             "patients_per_nurse = 4\nroster = [1,1,1,1,1,1,1]\n"
             "[[staffing.shift]]\nname = 'night'\nstart = '19:00'\nend = '07:00'\n"
             "patients_per_nurse = 7\nroster = [1,1,1,1,1,1,1]\n",
-            "shifts overlap (at 19:00)",
+            "'day' (07:00-20:00) overlaps 'night' (starts 19:00)",
         ),
         (
             "[[staffing.override]]\nstart = 2026-01-01\nend = 2026-01-02\nshift = 'late'\n"

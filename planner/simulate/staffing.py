@@ -17,9 +17,13 @@ import pandas as pd
 from planner.errors import PlannerError
 from planner.simulate.settings import Shift, StaffingSettings
 
+TILING = "shifts must cover the 24 hours exactly once"
+
 
 def _hours(value: float) -> str:
-    return f"{value:g}"
+    """Hours from midnight as HH:MM."""
+    minutes = round(value * 60)
+    return f"{minutes // 60:02d}:{minutes % 60:02d}"
 
 
 def validate_staffing(staffing: StaffingSettings) -> None:
@@ -51,14 +55,15 @@ def validate_staffing(staffing: StaffingSettings) -> None:
         end = shift.start_hour + shift.length_hours
         if next_start < end:
             raise PlannerError(
-                f"staffing.shifts: {shift.name!r} ({_hours(shift.start_hour)}-"
+                f"staffing.shift: {shift.name!r} ({_hours(shift.start_hour)}-"
                 f"{_hours(shift.end_hour)}) overlaps {following.name!r} "
-                f"(starts {_hours(following.start_hour)})"
+                f"(starts {_hours(following.start_hour)}); {TILING}"
             )
         if next_start > end:
             raise PlannerError(
-                f"staffing.shifts: gap between {shift.name!r} (ends {_hours(shift.end_hour)}) "
-                f"and {following.name!r} (starts {_hours(following.start_hour)})"
+                f"staffing.shift: hours uncovered, gap between {shift.name!r} (ends "
+                f"{_hours(shift.end_hour)}) and {following.name!r} (starts "
+                f"{_hours(following.start_hour)}); {TILING}"
             )
     for override in staffing.overrides:
         if override.shift not in names:
