@@ -54,6 +54,18 @@ paths_option = click.option(
     default=None,
     help="Number of sample paths (default: the scenario's).",
 )
+engine_option = click.option(
+    "--engine",
+    type=click.Choice(["auto", "simpy", "fast"]),
+    default=None,
+    help="Simulation engine (default: the scenario's, normally auto). Same numbers either way.",
+)
+jobs_option = click.option(
+    "--jobs",
+    type=click.IntRange(min=1),
+    default=None,
+    help="Worker processes for the simulation (default: all cores). Same numbers either way.",
+)
 seed_option = click.option(
     "--seed",
     type=click.IntRange(min=0),
@@ -96,6 +108,11 @@ def _target(out: Path | None, scenario, command: str) -> Path:
     from planner.outputs import default_folder
 
     return out if out is not None else default_folder(scenario.name, command)
+
+
+def _jobs(jobs: int | None) -> int:
+    """Worker processes: as asked, else one per core."""
+    return jobs if jobs is not None else max(1, os.cpu_count() or 1)
 
 
 def _progress(label: str):
@@ -182,8 +199,10 @@ def backtest(scenario: Path | None, out, overwrite, paths, seed) -> None:
 @overwrite_option
 @paths_option
 @seed_option
+@engine_option
+@jobs_option
 @user_errors
-def simulate(scenario: Path | None, out, overwrite, paths, seed) -> None:
+def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -> None:
     """Forecast and simulate the ward: daily.csv and shifts.csv."""
     from planner.outputs import atomic_folder
     from planner.pipeline import run_scenario
@@ -193,7 +212,9 @@ def simulate(scenario: Path | None, out, overwrite, paths, seed) -> None:
     plan, _ = _load(scenario)
     target = _target(out, plan, "simulate")
     with atomic_folder(target, overwrite) as folder:
-        run = run_scenario(plan, paths, seed, _progress("simulating"))
+        run = run_scenario(
+            plan, paths, seed, _progress("simulating"), None, engine or plan.engine, _jobs(jobs)
+        )
         write_csv(summarise_daily(run.ward), folder / "daily.csv")
         write_csv(summarise_shifts(run.ward), folder / "shifts.csv")
     patients = int(run.forecast.paths.sum())
@@ -209,8 +230,10 @@ def simulate(scenario: Path | None, out, overwrite, paths, seed) -> None:
 @overwrite_option
 @paths_option
 @seed_option
+@engine_option
+@jobs_option
 @user_errors
-def run(scenario: Path | None, out, overwrite, paths, seed) -> None:
+def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -> None:
     """Forecast, simulate and report: weekly.csv, charts, report.html, run.json."""
     from planner.outputs import atomic_folder
     from planner.pipeline import run_scenario
@@ -221,7 +244,9 @@ def run(scenario: Path | None, out, overwrite, paths, seed) -> None:
     plan, _ = _load(scenario)
     target = _target(out, plan, "run")
     with atomic_folder(target, overwrite) as folder:
-        result = run_scenario(plan, paths, seed, _progress("simulating"))
+        result = run_scenario(
+            plan, paths, seed, _progress("simulating"), None, engine or plan.engine, _jobs(jobs)
+        )
         write_run_files(result, folder, summarise_daily(result.ward), summarise_shifts(result.ward))
     click.echo(f"{plan.name}: {result.paths} paths from {result.history.start.date()}")
     click.echo(terminal_table(weekly_table(result.weekly)))
@@ -241,8 +266,10 @@ def run(scenario: Path | None, out, overwrite, paths, seed) -> None:
 @overwrite_option
 @paths_option
 @seed_option
+@engine_option
+@jobs_option
 @user_errors
-def compare(scenarios: tuple[Path, ...], out, overwrite, paths, seed) -> None:
+def compare(scenarios: tuple[Path, ...], out, overwrite, paths, seed, engine, jobs) -> None:
     """Compare ward plans (the first is the reference) with common random numbers:
     comparison.csv, costs.csv, a chart and comparison.html."""
     from planner.compare import compare_scenarios
@@ -257,7 +284,7 @@ def compare(scenarios: tuple[Path, ...], out, overwrite, paths, seed) -> None:
         return _progress(f"simulating {label}")
 
     with atomic_folder(target, overwrite) as folder:
-        result = compare_scenarios(list(scenarios), paths, seed, progress)
+        result = compare_scenarios(list(scenarios), paths, seed, progress, engine, _jobs(jobs))
         write_compare_files(result, folder)
     summary = summary_table(result)
     click.echo(summary.to_string(index=False, float_format=lambda v: f"{v:.3f}"))

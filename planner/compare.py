@@ -64,7 +64,9 @@ def _check_alike(scenarios: list[Scenario]) -> None:
                 )
 
 
-def run_all(files: list[Path], paths: int | None, seed: int | None, progress=None):
+def run_all(
+    files: list[Path], paths: int | None, seed: int | None, progress=None, engine=None, jobs=1
+):
     """Run every scenario with common random numbers, reusing forecasts where the history
     and forecast settings agree."""
     scenarios = [load_scenario(file) for file in files]
@@ -77,7 +79,8 @@ def run_all(files: list[Path], paths: int | None, seed: int | None, progress=Non
         load_history(scenario)  # reports bad input before any long work
     for number, scenario in enumerate(scenarios, start=1):
         step = None if progress is None else progress(f"{number}/{len(scenarios)}")
-        run = run_scenario(scenario, paths, seed, step, forecasts.get(_forecast_key(scenario)))
+        known = forecasts.get(_forecast_key(scenario))
+        run = run_scenario(scenario, paths, seed, step, known, engine or scenario.engine, jobs)
         forecasts.setdefault(_forecast_key(scenario), run.forecast)
         runs.append(run)
     return tuple(runs)
@@ -143,9 +146,11 @@ def cost_table(runs: tuple[RunResult, ...]) -> pd.DataFrame | None:
     return table
 
 
-def compare_scenarios(files: list[Path], paths=None, seed=None, progress=None) -> Comparison:
+def compare_scenarios(
+    files: list[Path], paths=None, seed=None, progress=None, engine=None, jobs=1
+) -> Comparison:
     """Run and compare scenarios (the first is the reference)."""
     if len(files) < 2:
         raise PlannerError("compare: give at least two scenario files")
-    runs = run_all(files, paths, seed, progress)
+    runs = run_all(files, paths, seed, progress, engine, jobs)
     return Comparison(runs, comparison_table(runs), cost_table(runs))

@@ -24,6 +24,10 @@ from planner.scenario import Scenario, load_scenario
 #: Recorded stays shorter than this (same-minute admission and discharge) are counted as
 #: this long, so every stay is positive: one minute, in days.
 MINIMUM_RECORDED_STAY_DAYS = 1.0 / (24 * 60)
+#: Paths per chunk of simulation work: small for the SimPy engine (the progress bar moves),
+#: large for the fast engine (it works across the paths of a chunk at once).
+SIMPY_CHUNK = 100
+FAST_CHUNK = 4096
 
 
 @dataclass(frozen=True)
@@ -165,33 +169,27 @@ def simulate_step(
     start: pd.Timestamp,
     seed: int,
     progress=None,
-    chunk: int = 100,
+    engine: str = "auto",
+    jobs: int = 1,
 ):
-    """Simulate the ward for every arrival path, in chunks of paths (the result does not
-    depend on the chunk size); ``progress(done, total)`` is called after each chunk."""
-    from planner.simulate import simulate_ward
-    from planner.simulate.ward import WardResult
+    """Simulate the ward for every arrival path; ``progress(done, total)`` is called as
+    chunks of paths finish. The result depends on neither the engine nor ``jobs``."""
+    from planner.simulate.engines import chosen_engine, simulate
 
-    streams = Streams.from_seed(seed)
-    parts = []
-    total = arrivals.shape[0]
-    for first in range(0, total, chunk):
-        part = simulate_ward(
-            arrivals[first : first + chunk],
-            start.date(),
-            scenario.ward,
-            inputs.stays,
-            inputs.inpatients_elapsed,
-            inputs.hour_profile,
-            streams.ward,
-            first_path=first,
-        )
-        parts.append(part)
-        if progress is not None:
-            progress(min(first + chunk, total), total)
-    return WardResult(
-        daily=pd.concat([part.daily for part in parts], ignore_index=True),
-        shifts=pd.concat([part.shifts for part in parts], ignore_index=True),
+    name = chosen_engine(engine, scenario.ward)
+    chunk = SIMPY_CHUNK if name == "simpy" else FAST_CHUNK
+    return simulate(
+        arrivals,
+        start.date(),
+        scenario.ward,
+        inputs.stays,
+        inputs.inpatients_elapsed,
+        inputs.hour_profile,
+        Streams.from_seed(seed).ward,
+        engine=name,
+        jobs=jobs,
+        chunk=min(chunk, max(1, -(-arrivals.shape[0] // jobs))),
+        progress=progress,
     )
 
 
@@ -216,6 +214,8 @@ def run_scenario(
     seed: int | None = None,
     progress=None,
     forecast=None,
+    engine: str = "auto",
+    jobs: int = 1,
 ) -> RunResult:
     """Forecast, simulate and summarise one scenario. ``forecast`` reuses sample paths made
     earlier with the same history and forecast settings (common random numbers)."""
@@ -235,7 +235,9 @@ def run_scenario(
     timings["forecast_s"] = time.perf_counter() - clock
     clock = time.perf_counter()
     inputs = ward_inputs(scenario, history)
-    ward = simulate_step(scenario, inputs, forecast.paths, history.start, seed, progress)
+    ward = simulate_step(
+        scenario, inputs, forecast.paths, history.start, seed, progress, engine, jobs
+    )
     timings["simulate_s"] = time.perf_counter() - clock
     clock = time.perf_counter()
     weekly = weekly_paths(ward.daily, ward.shifts, history.start)

@@ -61,6 +61,7 @@ class Scenario:
     stay: StaySettings
     ward: WardSettings
     costs: Costs
+    engine: str
     resolved: dict[str, Any] = field(repr=False, compare=False)
     history_format: HistoryFormat = field(default_factory=HistoryFormat)
 
@@ -267,6 +268,7 @@ def load_scenario(path: str | Path | None = None) -> Scenario:
         forecast=_forecast(document, where),
         stay=stay,
         ward=_ward(document, where),
+        engine=_table(document, "simulation")["engine"],
         costs=Costs(**{k: float(v) for k, v in _table(document, "costs").items()}),
         resolved=document,
         history_format=HistoryFormat(

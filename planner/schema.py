@@ -297,6 +297,21 @@ TABLES = (
         many=True,
     ),
     Table(
+        "simulation",
+        "How the ward is simulated. Both engines give the same numbers for the same seed; "
+        "the fast one works across all paths at once.",
+        (
+            Key(
+                "engine",
+                "str",
+                "auto",
+                "Simulation engine: the SimPy model, the vectorised one, or the fast one "
+                "whenever it covers the ward set-up.",
+                choices=("auto", "simpy", "fast"),
+            ),
+        ),
+    ),
+    Table(
         "costs",
         "Optional unit costs for comparing plans (any currency).",
         (

@@ -167,3 +167,17 @@ def test_backtest_command_shows_the_backtest_that_chose_the_strategy(ward_folder
     assert chosen.strategy == (
         "recursive" if overall["recursive"] <= overall["direct"] else "direct"
     )
+
+
+def test_engines_and_jobs_give_identical_files(ward_folder, tmp_path):
+    scenario = str(plan(ward_folder, "same", 6, "wait", 60))
+    outputs = []
+    for number, options in enumerate(
+        (["--engine", "simpy", "--jobs", "1"], ["--engine", "fast", "--jobs", "2"])
+    ):
+        out = tmp_path / f"run{number}"
+        result = CliRunner().invoke(cli, ["run", scenario, "--out", str(out), *options])
+        assert result.exit_code == 0, result.output
+        outputs.append(out)
+    for name in ("weekly.csv", "daily.csv", "shifts.csv", "forecast.csv"):
+        assert (outputs[0] / name).read_bytes() == (outputs[1] / name).read_bytes(), name

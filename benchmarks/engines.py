@@ -1,0 +1,117 @@
+"""Patients per second of the ward engines, in one process, as ratios to a reference run.
+
+Run from the repository root: ``PYTHONPATH=. python benchmarks/engines.py``. Numpy's own
+threads do not matter here (no linear algebra); set OPENBLAS_NUM_THREADS=1 to rule them out.
+
+Rows:
+- reference: a minimal SimPy loop of the same ward ("wait" policy), one process per patient
+  queuing for a ``simpy.Resource``, written here;
+- simpy model: :func:`planner.simulate.ward.simulate_ward`;
+- fast, spawned / counter: :func:`planner.simulate.fast.simulate_ward_fast` with the SimPy
+  model's random streams (same results) or the counter-based streams;
+- fast, 2 jobs: :func:`planner.simulate.engines.simulate` with ``jobs=2``.
+"""
+
+from __future__ import annotations
+
+import time
+from datetime import date
+
+import numpy as np
+import simpy
+
+from planner.simulate.engines import simulate
+from planner.simulate.fast import simulate_ward_fast
+from planner.simulate.settings import WardSettings
+from planner.simulate.stays import Lognormal
+from planner.simulate.ward import simulate_ward
+
+START = date(2024, 1, 1)
+DAYS = 91
+MEAN_STAY, SD_STAY = 5.0, 4.4  # days
+DEMO_BEDS, DEMO_RATE = 28, 4.1  # beds, admissions per day
+OCCUPANCY = 0.85  # for the 30 and 300 bed wards: rate = occupancy x beds / mean stay
+UNIFORM = np.full(24, 1 / 24)
+SEED = 2024
+
+
+def reference_loop(arrivals, beds, stays, seed):
+    """Minimal SimPy ward: each patient a process requesting one of ``beds`` (FCFS)."""
+    for i, counts in enumerate(arrivals):
+        rng = np.random.default_rng([seed, i])
+        total = int(counts.sum())
+        hours = np.sort(24.0 * np.repeat(np.arange(counts.size), counts) + 24 * rng.random(total))
+        stay_hours = 24.0 * stays.sample(rng, total)
+        env = simpy.Environment()
+        ward = simpy.Resource(env, capacity=beds)
+
+        def patient(env, ward, arrive, stay):
+            yield env.timeout(arrive)
+            with ward.request() as bed:
+                yield bed
+                yield env.timeout(stay)
+
+        for arrive, stay in zip(hours.tolist(), stay_hours.tolist(), strict=True):
+            env.process(patient(env, ward, arrive, stay))
+        env.run(until=24.0 * counts.size)
+
+
+def timed(function, *arguments, **keywords) -> float:
+    clock = time.perf_counter()
+    function(*arguments, **keywords)
+    return time.perf_counter() - clock
+
+
+def ward_case(beds, rate, paths, simpy_paths):
+    """Rows (name, paths, patients/s) for one ward."""
+    stays = Lognormal.from_mean_sd(MEAN_STAY, SD_STAY)
+    arrivals = np.random.default_rng(SEED).poisson(rate, size=(paths, DAYS))
+    elapsed = np.random.default_rng(SEED + 1).exponential(MEAN_STAY, round(OCCUPANCY * beds))
+    ward = WardSettings(beds=beds)
+    arguments = (START, ward, stays, elapsed, UNIFORM, SEED)
+    rows = []
+    if simpy_paths:
+        few = arrivals[:simpy_paths]
+        patients = few.sum()
+        rows.append(("reference simpy loop", simpy_paths,
+                     patients / timed(reference_loop, few, beds, stays, SEED)))  # fmt: skip
+        rows.append(("simpy model", simpy_paths,
+                     patients / timed(simulate_ward, few, *arguments)))  # fmt: skip
+    patients = arrivals.sum()
+    for streams in ("spawned", "counter"):
+        seconds = timed(simulate_ward_fast, arrivals, *arguments, streams=streams)
+        rows.append((f"fast, {streams} streams", paths, patients / seconds))
+    for jobs in (1, 2):
+        seconds = timed(simulate, arrivals, *arguments, engine="fast", jobs=jobs,
+                        streams="counter")  # fmt: skip
+        rows.append((f"fast counter, jobs={jobs}", paths, patients / seconds))
+    return rows
+
+
+def print_table(title, rows):
+    base = dict((name, rate) for name, _, rate in rows)
+    reference = base.get("reference simpy loop")
+    model = base.get("simpy model")
+    print(f"\n{title}")
+    print(f"{'engine':28s} {'paths':>7s} {'patients/s':>12s} {'x reference':>12s} {'x model':>9s}")
+    for name, paths, rate in rows:
+        ratio_reference = f"{rate / reference:12.1f}" if reference else f"{'':12s}"
+        ratio_model = f"{rate / model:9.1f}" if model else f"{'':9s}"
+        print(f"{name:28s} {paths:7d} {rate:12,.0f} {ratio_reference} {ratio_model}")
+    one, two = base["fast counter, jobs=1"], base["fast counter, jobs=2"]
+    print(f"jobs=2 speed-up over jobs=1: {two / one:.2f}x")
+
+
+def main():
+    print_table(f"demo ward: {DEMO_BEDS} beds, {DEMO_RATE}/day, {DAYS} days, 1,000 paths",
+                ward_case(DEMO_BEDS, DEMO_RATE, 1000, 1000))  # fmt: skip
+    print_table("demo ward, 10,000 paths (fast only)",
+                ward_case(DEMO_BEDS, DEMO_RATE, 10_000, 0))  # fmt: skip
+    for beds, paths, simpy_paths in ((30, 1000, 300), (300, 300, 30)):
+        rate = OCCUPANCY * beds / MEAN_STAY
+        print_table(f"{beds} beds, {rate:.1f}/day (occupancy ~{OCCUPANCY:.0%}), {DAYS} days",
+                    ward_case(beds, rate, paths, simpy_paths))  # fmt: skip
+
+
+if __name__ == "__main__":
+    main()

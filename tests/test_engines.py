@@ -1,0 +1,93 @@
+"""Engine choice and parallel chunks: the result never depends on either."""
+
+from __future__ import annotations
+
+from datetime import date
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from planner.errors import PlannerError
+from planner.simulate.engines import ENGINES, chosen_engine, chunk_starts, covers, simulate
+from planner.simulate.settings import BedChange, WardSettings
+from planner.simulate.stays import Lognormal
+from planner.simulate.ward import simulate_ward
+
+START = date(2024, 1, 1)
+UNIFORM = np.full(24, 1 / 24)
+WARD = WardSettings(beds=14, bed_changes=(BedChange(date(2024, 1, 6), date(2024, 1, 9), -3),))
+STAYS = Lognormal.from_mean_sd(4.0, 3.0)
+ELAPSED = np.linspace(0.0, 6.0, 10)
+
+
+def arrivals(paths: int = 9, days: int = 21) -> np.ndarray:
+    return np.random.default_rng(1).poisson(4.0, size=(paths, days))
+
+
+def run(**keywords):
+    return simulate(arrivals(), START, WARD, STAYS, ELAPSED, UNIFORM, 8, **keywords)
+
+
+def assert_equal_results(first, second):
+    pd.testing.assert_frame_equal(first.daily, second.daily, check_exact=True)
+    pd.testing.assert_frame_equal(first.shifts, second.shifts, check_exact=True)
+
+
+def test_auto_picks_fast_for_every_policy():
+    assert ENGINES == ("auto", "simpy", "fast")
+    for policy in ("wait", "divert"):
+        ward = WardSettings(policy=policy)
+        assert covers(ward)
+        assert chosen_engine("auto", ward) == "fast"
+    assert chosen_engine("simpy", WARD) == "simpy"
+
+
+@pytest.mark.parametrize("policy", ["wait", "divert"])
+def test_engines_give_the_simpy_model_result(policy):
+    ward = WardSettings(beds=12, policy=policy, bed_changes=WARD.bed_changes)
+    expected = simulate_ward(arrivals(), START, ward, STAYS, ELAPSED, UNIFORM, 8)
+    for engine in ENGINES:
+        result = simulate(arrivals(), START, ward, STAYS, ELAPSED, UNIFORM, 8, engine=engine)
+        assert_equal_results(result, expected)
+
+
+@pytest.mark.parametrize(("engine", "streams"), [("fast", "spawned"), ("fast", "counter"),
+                                                 ("simpy", "spawned")])  # fmt: skip
+def test_two_jobs_give_the_same_result_as_one(engine, streams):
+    one = run(engine=engine, streams=streams)
+    two = run(engine=engine, streams=streams, jobs=2)
+    assert_equal_results(two, one)
+    assert two.daily["path"].is_monotonic_increasing
+
+
+def test_chunks_keep_first_path():
+    shifted = run(jobs=2, first_path=100)
+    assert shifted.daily["path"].min() == 100
+    np.testing.assert_array_equal(
+        shifted.daily.drop(columns="path").to_numpy(),
+        simulate(arrivals(), START, WARD, STAYS, ELAPSED, UNIFORM, 8, first_path=100)
+        .daily.drop(columns="path")
+        .to_numpy(),
+    )
+
+
+def test_chunk_starts_are_deterministic_and_cover_the_paths():
+    assert chunk_starts(10, 3) == [0, 3, 6]
+    assert chunk_starts(2, 4) == [0, 1]
+    assert chunk_starts(0, 2) == [0]
+    assert chunk_starts(7, 1) == [0]
+
+
+@pytest.mark.parametrize(
+    ("keywords", "message"),
+    [
+        ({"engine": "gpu"}, "engine"),
+        ({"jobs": 0}, "jobs"),
+        ({"jobs": 1.5}, "jobs"),
+        ({"engine": "simpy", "streams": "counter"}, "streams"),
+    ],
+)
+def test_bad_choices_raise(keywords, message):
+    with pytest.raises(PlannerError, match=message):
+        run(**keywords)
