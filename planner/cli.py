@@ -74,6 +74,18 @@ seed_option = click.option(
 )
 
 
+def output_options(command: Callable[..., Any]) -> Callable[..., Any]:
+    """--out, --overwrite, --paths and --seed."""
+    for option in (seed_option, paths_option, overwrite_option, out_option):
+        command = option(command)
+    return command
+
+
+def simulation_options(command: Callable[..., Any]) -> Callable[..., Any]:
+    """--engine and --jobs."""
+    return engine_option(jobs_option(command))
+
+
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
 @click.version_option(__version__, prog_name="planner")
 def cli() -> None:
@@ -115,6 +127,15 @@ def _jobs(jobs: int | None) -> int:
     return jobs if jobs is not None else max(1, os.cpu_count() or 1)
 
 
+def _run_plan(plan, paths, seed, engine, jobs):
+    """Forecast, simulate and summarise ``plan`` with the command's options."""
+    from planner.pipeline import run_scenario
+
+    return run_scenario(
+        plan, paths, seed, _progress("simulating"), None, engine or plan.engine, _jobs(jobs)
+    )
+
+
 def _progress(label: str):
     """A progress callback drawing a bar on stderr when it is a terminal, else None."""
     stream = sys.stderr
@@ -135,10 +156,7 @@ def _progress(label: str):
 
 @cli.command()
 @scenario_argument
-@out_option
-@overwrite_option
-@paths_option
-@seed_option
+@output_options
 @user_errors
 def forecast(scenario: Path | None, out, overwrite, paths, seed) -> None:
     """Forecast daily admissions as sample paths: forecast.csv and a fan chart."""
@@ -166,10 +184,7 @@ def forecast(scenario: Path | None, out, overwrite, paths, seed) -> None:
 
 @cli.command()
 @scenario_argument
-@out_option
-@overwrite_option
-@paths_option
-@seed_option
+@output_options
 @user_errors
 def backtest(scenario: Path | None, out, overwrite, paths, seed) -> None:
     """Rolling-origin backtest of the forecast strategies: backtest.csv."""
@@ -195,26 +210,19 @@ def backtest(scenario: Path | None, out, overwrite, paths, seed) -> None:
 
 @cli.command()
 @scenario_argument
-@out_option
-@overwrite_option
-@paths_option
-@seed_option
-@engine_option
-@jobs_option
+@output_options
+@simulation_options
 @user_errors
 def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -> None:
     """Forecast and simulate the ward: daily.csv and shifts.csv."""
     from planner.outputs import atomic_folder
-    from planner.pipeline import run_scenario
     from planner.report.files import write_csv
     from planner.simulate import summarise_daily, summarise_shifts
 
     plan, _ = _load(scenario)
     target = _target(out, plan, "simulate")
     with atomic_folder(target, overwrite) as folder:
-        run = run_scenario(
-            plan, paths, seed, _progress("simulating"), None, engine or plan.engine, _jobs(jobs)
-        )
+        run = _run_plan(plan, paths, seed, engine, jobs)
         write_csv(summarise_daily(run.ward), folder / "daily.csv")
         write_csv(summarise_shifts(run.ward), folder / "shifts.csv")
     patients = int(run.forecast.paths.sum())
@@ -226,17 +234,12 @@ def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -
 
 @cli.command()
 @scenario_argument
-@out_option
-@overwrite_option
-@paths_option
-@seed_option
-@engine_option
-@jobs_option
+@output_options
+@simulation_options
 @user_errors
 def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -> None:
     """Forecast, simulate and report: weekly.csv, charts, report.html, run.json."""
     from planner.outputs import atomic_folder
-    from planner.pipeline import run_scenario
     from planner.report.run_report import headline, terminal_table, write_run_files
     from planner.report.weekly import weekly_table
     from planner.simulate import summarise_daily, summarise_shifts
@@ -244,9 +247,7 @@ def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -> Non
     plan, _ = _load(scenario)
     target = _target(out, plan, "run")
     with atomic_folder(target, overwrite) as folder:
-        result = run_scenario(
-            plan, paths, seed, _progress("simulating"), None, engine or plan.engine, _jobs(jobs)
-        )
+        result = _run_plan(plan, paths, seed, engine, jobs)
         write_run_files(result, folder, summarise_daily(result.ward), summarise_shifts(result.ward))
     click.echo(f"{plan.name}: {result.paths} paths from {result.history.start.date()}")
     click.echo(terminal_table(weekly_table(result.weekly)))
@@ -262,12 +263,8 @@ def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -> Non
 @click.argument(
     "scenarios", nargs=-1, required=True, type=click.Path(dir_okay=False, path_type=Path)
 )
-@out_option
-@overwrite_option
-@paths_option
-@seed_option
-@engine_option
-@jobs_option
+@output_options
+@simulation_options
 @user_errors
 def compare(scenarios: tuple[Path, ...], out, overwrite, paths, seed, engine, jobs) -> None:
     """Compare ward plans (the first is the reference) with common random numbers:
