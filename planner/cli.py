@@ -239,7 +239,8 @@ def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -
 @user_errors
 def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -> None:
     """Forecast, simulate and report: weekly.csv, charts, report.html, run.json."""
-    from planner.outputs import atomic_folder
+    from planner.outputs import DEFAULT_ROOT, atomic_folder
+    from planner.report.hindcast_report import find_latest_hindcast
     from planner.report.run_report import headline, terminal_table, write_run_files
     from planner.report.weekly import weekly_table
     from planner.simulate import summarise_daily, summarise_shifts
@@ -248,7 +249,10 @@ def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -> Non
     target = _target(out, plan, "run")
     with atomic_folder(target, overwrite) as folder:
         result = _run_plan(plan, paths, seed, engine, jobs)
-        write_run_files(result, folder, summarise_daily(result.ward), summarise_shifts(result.ward))
+        hindcast = find_latest_hindcast([DEFAULT_ROOT, target.parent], plan)
+        write_run_files(
+            result, folder, summarise_daily(result.ward), summarise_shifts(result.ward), hindcast
+        )
     click.echo(f"{plan.name}: {result.paths} paths from {result.history.start.date()}")
     click.echo(terminal_table(weekly_table(result.weekly)))
     click.echo(headline(result))
@@ -290,9 +294,60 @@ def compare(scenarios: tuple[Path, ...], out, overwrite, paths, seed, engine, jo
     click.echo(f"wrote {target}/comparison.html")
 
 
+#: Hindcast defaults: past start dates over the last 26 weeks, paths per start date.
+HINDCAST_WEEKS = 26
+HINDCAST_PATHS = 300
+
 #: BLAS threads: the matrices here are small, and threaded BLAS on them is slower, badly so
 #: on a busy machine; parallel work is done across paths instead. A user's setting wins.
 BLAS_THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
+
+
+@cli.command()
+@scenario_argument
+@output_options
+@click.option(
+    "--origins",
+    type=click.IntRange(min=1),
+    default=None,
+    help="Number of past start dates (default: as many as fit in 26 weeks).",
+)
+@click.option(
+    "--every",
+    "every_days",
+    type=click.IntRange(min=1),
+    default=14,
+    show_default=True,
+    help="Days between past start dates.",
+)
+@simulation_options
+@user_errors
+def hindcast(
+    scenario: Path | None, out, overwrite, paths, seed, origins, every_days, engine, jobs
+) -> None:
+    """Start the setup at past dates with only what was known then and compare its census
+    forecast with the census that happened: hindcast.csv, charts, hindcast.html."""
+    from planner.hindcast import hindcast as run_hindcast
+    from planner.outputs import atomic_folder
+    from planner.report.hindcast_report import headline, write_hindcast_files
+
+    plan, _ = _load(scenario)
+    target = _target(out, plan, "hindcast")
+    weeks = HINDCAST_WEEKS if origins is None else -(-origins * every_days // 7)
+    with atomic_folder(target, overwrite) as folder:
+        result = run_hindcast(
+            plan,
+            None,
+            every_days,
+            weeks,
+            paths or HINDCAST_PATHS,
+            seed,
+            _jobs(jobs),
+            engine or plan.engine,
+        )
+        write_hindcast_files(result, plan, folder)
+    click.echo(headline(result))
+    click.echo(f"wrote {target}/hindcast.html")
 
 
 def main() -> None:

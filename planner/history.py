@@ -243,12 +243,3 @@ def inpatients_at(episodes: pd.DataFrame, moment: pd.Timestamp) -> np.ndarray:
     present = (admitted < moment) & (discharged.isna() | (discharged > moment))
     elapsed = (moment - admitted[present]).dt.total_seconds() / 3600.0 / HOURS_PER_DAY
     return np.sort(elapsed.to_numpy(dtype=float))
-
-
-def completed_stays(episodes: pd.DataFrame, before: pd.Timestamp | None = None) -> np.ndarray:
-    """Lengths of stay (days) of episodes discharged (before ``before`` when given)."""
-    done = episodes.dropna(subset=["discharged_at"])
-    if before is not None:
-        done = done[done["discharged_at"] <= pd.Timestamp(before)]
-    stays = (done["discharged_at"] - done["admitted_at"]).dt.total_seconds() / 3600.0
-    return (stays / HOURS_PER_DAY).to_numpy(dtype=float)

@@ -13,7 +13,6 @@ from planner.errors import PlannerError
 from planner.forecast.requirements import check_history_length
 from planner.history import (
     admissions_from_episodes,
-    completed_stays,
     episodes_end,
     inpatients_at,
     read_daily_admissions,
@@ -49,11 +48,16 @@ class WardHistory:
             return np.zeros(0)
         return inpatients_at(self.episodes, self.start)
 
-    def stays(self) -> np.ndarray | None:
-        """Completed stays (days) known at the start, or None without episodes."""
+    def stays(self) -> tuple[np.ndarray | None, np.ndarray | None]:
+        """Stays (days) as known at the start and whether each has ended: stays still in
+        progress are censored at the start (see :mod:`planner.simulate.survival`). Recorded
+        stays shorter than a minute count as one minute. (None, None) without episodes."""
+        from planner.simulate.survival import stays_at
+
         if self.episodes is None:
-            return None
-        return completed_stays(self.episodes, before=self.start)
+            return None, None
+        durations, observed = stays_at(self.episodes, self.start)
+        return np.maximum(durations, MINIMUM_RECORDED_STAY_DAYS), observed
 
 
 def load_history(scenario: Scenario) -> WardHistory:
@@ -151,12 +155,10 @@ def ward_inputs(scenario: Scenario, history: WardHistory) -> WardInputs:
     from planner.simulate.arrivals import hour_profile
     from planner.simulate.stay_fit import stay_distribution
 
-    stays = history.stays()
-    if stays is not None:
-        stays = np.maximum(stays, MINIMUM_RECORDED_STAY_DAYS)
+    stays, observed = history.stays()
     admitted = None if history.episodes is None else history.episodes["admitted_at"]
     return WardInputs(
-        stays=stay_distribution(scenario.stay, stays),
+        stays=stay_distribution(scenario.stay, stays, observed),
         inpatients_elapsed=history.inpatients_elapsed(),
         hour_profile=hour_profile(admitted),
     )

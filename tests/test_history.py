@@ -17,12 +17,12 @@ from planner.forecast.requirements import check_history_length, days_needed
 from planner.history import (
     HistoryFormat,
     admissions_from_episodes,
-    completed_stays,
     episodes_end,
     inpatients_at,
     read_daily_admissions,
     read_episodes,
 )
+from planner.simulate.survival import stays_at
 
 
 def write(tmp_path, text, name="input.csv", encoding="utf-8"):
@@ -96,8 +96,11 @@ def test_episodes_give_daily_counts_stays_and_inpatients(tmp_path):
     # last event is the discharge at 00:00 on 6 Jan.
     assert list(counts) == [2, 1, 0, 1, 0, 0]
     assert counts.index[-1] == pd.Timestamp("2026-01-06")
-    # Completed stays: 2 days, 0.5 day, 1.5 days (the open episode is not a stay yet).
-    assert sorted(completed_stays(episodes)) == [0.5, 1.5, 2.0]
+    # Completed stays: 2 days, 0.5 day, 1.5 days; the open episode is censored (in 4 days
+    # 2 hours at 00:00 on 6 Jan).
+    durations, observed = stays_at(episodes, pd.Timestamp("2026-01-06"))
+    assert sorted(durations[observed]) == [0.5, 1.5, 2.0]
+    np.testing.assert_allclose(durations[~observed], [4 + 2 / 24])
     # At 00:00 on 3 Jan: the first patient (in 1.583 days) and the open one (1.083 days).
     elapsed = inpatients_at(episodes, pd.Timestamp("2026-01-03"))
     np.testing.assert_allclose(elapsed, [26 / 24, 38 / 24])
@@ -135,7 +138,8 @@ def test_declared_formats_and_filled_days(tmp_path):
         HistoryFormat(timestamp_format="%d/%m/%Y %H:%M"),
     )
     assert episodes["admitted_at"].iloc[0] == pd.Timestamp("2025-12-30 22:10")
-    np.testing.assert_allclose(completed_stays(episodes), [(2 * 24 + 10 + 50 / 60) / 24])
+    durations, _ = stays_at(episodes, pd.Timestamp("2026-02-01"))
+    np.testing.assert_allclose(durations, [(2 * 24 + 10 + 50 / 60) / 24])
 
 
 def test_month_first_read_as_day_first_is_caught(tmp_path):

@@ -106,8 +106,15 @@ def _ward_plan(scenario) -> list[tuple[str, str]]:
     ]
 
 
-def assumptions(run) -> list[tuple[str, str]]:
-    """Key assumptions of the run, as (term, description) pairs for the report."""
+NO_HINDCAST = (
+    "No hindcast has been run for this setup: the census forecast has not yet been checked "
+    "against past dates (planner hindcast)."
+)
+
+
+def assumptions(run, hindcast_line: str | None = None) -> list[tuple[str, str]]:
+    """Key assumptions of the run, as (term, description) pairs for the report;
+    ``hindcast_line`` quotes the latest hindcast of this setup, if any."""
     summary = run.forecast.summary
     items = [
         (
@@ -146,17 +153,20 @@ def assumptions(run) -> list[tuple[str, str]]:
             f"given the time already spent",
         ),
         *_ward_plan(run.scenario),
-        (
-            "Hindcast",
-            "No hindcast has been run for this setup: the census forecast has not "
-            "yet been checked against past dates.",
-        ),
+        ("Hindcast", hindcast_line or NO_HINDCAST),
     ]
     return items
 
 
-def write_run_files(run, folder: Path, daily: pd.DataFrame, shifts: pd.DataFrame) -> None:
-    """All files of ``planner run`` into ``folder``."""
+def write_run_files(
+    run,
+    folder: Path,
+    daily: pd.DataFrame,
+    shifts: pd.DataFrame,
+    hindcast_line: str | None = None,
+) -> None:
+    """All files of ``planner run`` into ``folder``; ``hindcast_line`` as for
+    :func:`assumptions`."""
     weekly = weekly_table(run.weekly)
     forecast = run.forecast.table()
     write_csv(weekly, folder / "weekly.csv")
@@ -171,7 +181,7 @@ def write_run_files(run, folder: Path, daily: pd.DataFrame, shifts: pd.DataFrame
     }
     for name, png in pictures.items():
         (folder / name).write_bytes(png)
-    (folder / "report.html").write_text(run_page(run, weekly, pictures))
+    (folder / "report.html").write_text(run_page(run, weekly, pictures, hindcast_line))
     inputs = [p for p in (run.scenario.admissions_file, run.scenario.episodes_file) if p]
     summary = run.forecast.summary
     extra = {
@@ -190,7 +200,9 @@ def write_run_files(run, folder: Path, daily: pd.DataFrame, shifts: pd.DataFrame
     write_json(record, folder / "run.json")
 
 
-def run_page(run, weekly: pd.DataFrame, pictures: dict[str, bytes]) -> str:
+def run_page(
+    run, weekly: pd.DataFrame, pictures: dict[str, bytes], hindcast_line: str | None = None
+) -> str:
     """The self-contained report page."""
     scenario = run.scenario
     last = run.history.start + pd.Timedelta(days=scenario.horizon_days - 1)
@@ -205,6 +217,6 @@ def run_page(run, weekly: pd.DataFrame, pictures: dict[str, bytes]) -> str:
         ("Census against beds", html.image(pictures["census.png"], "census fan chart")),
         ("Admissions", html.image(pictures["admissions.png"], "admissions fan chart")),
         ("Nurses", html.image(pictures["nurses.png"], "nurses required against rostered")),
-        ("Key assumptions", html.facts(assumptions(run))),
+        ("Key assumptions", html.facts(assumptions(run, hindcast_line))),
     ]
     return html.page(f"Ward plan: {scenario.name}", sections, subtitle)

@@ -1,0 +1,125 @@
+"""Scores of a census hindcast: pure functions on arrays of census (patients at 24:00).
+
+* Central intervals: 50% = [q0.25, q0.75], 80% = [q0.10, q0.90], 95% = [q0.025, q0.975] of the
+  simulated paths (numpy's linear interpolation); a day is covered when lower <= census <=
+  upper.
+* Pinball loss (patients) averaged over the levels 0.05, 0.10, ..., 0.95:
+  tau (y - q) if y >= q else (1 - tau)(q - y).
+* Naive census baseline: the census at the origin carried forward; its quantile at horizon h
+  days is the origin census plus the quantile of the h-day census changes c[t + h] - c[t]
+  over the history before the origin.
+* Randomised PIT for integer census (Czado, Gneiting & Held, Biometrics 65 (2009) 1254-1261):
+  u = F(y - 1) + v (F(y) - F(y - 1)), v ~ Uniform(0, 1), F the share of paths <= y; uniform
+  on (0, 1) when the forecast is calibrated.
+* Pearson chi-square test of equal PIT bin counts (scipy.stats.chisquare).
+* Brier score (Brier, Monthly Weather Review 78 (1950) 1-3) of P(census > threshold): mean
+  of (p - 1{y > threshold})^2; and a reliability table of predicted-probability bins.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+from scipy import stats
+
+PINBALL_LEVELS = tuple(np.round(np.arange(1, 20) * 0.05, 2))
+#: Central interval (percent) -> (lower level, upper level).
+INTERVALS = {50: (0.25, 0.75), 80: (0.10, 0.90), 95: (0.025, 0.975)}
+BAND_LEVELS = tuple(sorted({level for pair in INTERVALS.values() for level in pair} | {0.5}))
+
+
+def quantiles_of_paths(census_paths: np.ndarray, levels=BAND_LEVELS) -> np.ndarray:
+    """Quantiles (days, levels) of simulated census (paths, days) across paths."""
+    return np.quantile(np.asarray(census_paths, dtype=float), levels, axis=0).T
+
+
+def census_changes_quantiles(census_before: np.ndarray, days: int, levels) -> np.ndarray:
+    """Quantiles (days, levels) of h-day census changes, h = 1 .. ``days``, over a census
+    history (patients, oldest first). Horizons longer than the history get the changes of the
+    longest horizon it allows."""
+    c = np.asarray(census_before, dtype=float)
+    longest = max(c.size - 1, 1)
+    out = np.empty((days, len(levels)))
+    for h in range(1, days + 1):
+        step = min(h, longest)
+        changes = c[step:] - c[:-step] if c.size > step else np.zeros(1)
+        out[h - 1] = np.quantile(changes, levels)
+    return out
+
+
+def pinball_by_day(actual: np.ndarray, quantiles: np.ndarray, levels) -> np.ndarray:
+    """Pinball loss (patients) of each day, averaged over ``levels``; quantiles (days, L)."""
+    y = np.asarray(actual, dtype=float)[:, None]
+    tau = np.asarray(levels, dtype=float)[None, :]
+    gap = y - quantiles
+    return np.mean(np.where(gap >= 0, tau * gap, (tau - 1.0) * gap), axis=1)
+
+
+def covered(actual: np.ndarray, lower: np.ndarray, upper: np.ndarray) -> np.ndarray:
+    """True on days with lower <= census <= upper."""
+    y = np.asarray(actual, dtype=float)
+    return (y >= lower) & (y <= upper)
+
+
+def randomised_pit(census_paths: np.ndarray, actual: np.ndarray, rng: np.random.Generator):
+    """Randomised PIT of integer census ``actual`` (days,) under the paths (paths, days)."""
+    x = np.asarray(census_paths)
+    y = np.asarray(actual)[None, :]
+    below = np.mean(x < y, axis=0)  # F(y - 1) for integer census
+    at_most = np.mean(x <= y, axis=0)  # F(y)
+    return below + rng.random(below.shape) * (at_most - below)
+
+
+def pit_chi_square(pit: np.ndarray, bins: int = 10) -> tuple[np.ndarray, float, float]:
+    """Counts of PIT values in ``bins`` equal bins of [0, 1], the Pearson chi-square statistic
+    against equal counts and its p-value (bins - 1 degrees of freedom)."""
+    counts = np.histogram(np.clip(pit, 0, 1), bins=bins, range=(0.0, 1.0))[0]
+    if counts.sum() == 0:
+        return counts, float("nan"), float("nan")
+    test = stats.chisquare(counts)
+    return counts, float(test.statistic), float(test.pvalue)
+
+
+def brier_score(probability: np.ndarray, outcome: np.ndarray) -> float:
+    """Mean squared difference between P(event) and the 0/1 outcome."""
+    p, y = np.asarray(probability, dtype=float), np.asarray(outcome, dtype=float)
+    return float(np.mean((p - y) ** 2)) if p.size else float("nan")
+
+
+def reliability_table(probability, outcome, bins: int = 10) -> pd.DataFrame:
+    """Predicted-probability bins [0, 0.1), ..., [0.9, 1.0]: ``days``, ``mean_predicted``,
+    ``observed_frequency`` (share of days with the event); empty bins are left out."""
+    p, y = np.asarray(probability, dtype=float), np.asarray(outcome, dtype=float)
+    which = np.minimum((p * bins).astype(int), bins - 1)
+    rows = []
+    for b in range(bins):
+        inside = which == b
+        if inside.any():
+            rows.append(
+                (b / bins, (b + 1) / bins, int(inside.sum()), p[inside].mean(), y[inside].mean())
+            )
+    columns = ["bin_from", "bin_to", "days", "mean_predicted", "observed_frequency"]
+    return pd.DataFrame(rows, columns=columns)
+
+
+def summary_by_week(table: pd.DataFrame, threshold_columns: dict[str, int]) -> pd.DataFrame:
+    """Per horizon week (0 = all weeks together) from hindcast rows: days, origins, coverage
+    of the model's and the naive baseline's 50/80/95% intervals, mean pinball loss of each,
+    pinball skill (1 - model / naive), and the Brier score of each threshold column."""
+    rows = []
+    weeks = [0, *sorted(table["horizon_week"].unique())]
+    for week in weeks:
+        part = table if week == 0 else table[table["horizon_week"] == week]
+        y = part["census"].to_numpy()
+        row = {"horizon_week": week, "days": len(part), "origins": part["origin"].nunique()}
+        for who in ("model", "naive"):
+            for percent in INTERVALS:
+                lower, upper = part[f"{who}_lo{percent}"], part[f"{who}_hi{percent}"]
+                row[f"{who}_coverage_{percent}"] = float(np.mean(covered(y, lower, upper)))
+            row[f"{who}_pinball"] = float(part[f"{who}_pinball"].mean())
+        row["pinball_skill"] = 1.0 - row["model_pinball"] / row["naive_pinball"]
+        for column, offset in threshold_columns.items():
+            outcome = y > part["beds_open"].to_numpy() - offset
+            row[f"brier_{column[2:]}"] = brier_score(part[column], outcome)
+        rows.append(row)
+    return pd.DataFrame(rows)
