@@ -40,8 +40,10 @@ def rows(path_counts=(1_000, 10_000)) -> list[tuple[str, float, str, float]]:
     """(case, seconds, reference, ratio to the reference) rows."""
     series = history()
     reference = _seconds(
-        lambda: AutoReg(series.to_numpy(float), 7, trend="c").fit().predict(
-            len(series), len(series) + HORIZON - 1
+        lambda: (
+            AutoReg(series.to_numpy(float), 7, trend="c")
+            .fit()
+            .predict(len(series), len(series) + HORIZON - 1)
         ),
         repeat=3,
     )
@@ -54,5 +56,7 @@ def rows(path_counts=(1_000, 10_000)) -> list[tuple[str, float, str, float]]:
                     series, s, HORIZON, p, np.random.default_rng(1)
                 )
             )
-            out.append((f"forecast {strategy}, {paths} paths", seconds, "AutoReg", seconds / reference))
+            out.append(
+                (f"forecast {strategy}, {paths} paths", seconds, "AutoReg", seconds / reference)
+            )
     return out
