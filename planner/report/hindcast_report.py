@@ -143,9 +143,6 @@ def hindcast_page(result, pictures: dict[str, bytes]) -> str:
         f"{result.origins[-1].date()}, horizon {result.horizon_days} days, {result.paths} "
         f"paths per origin, seed {result.seed}."
     )
-    formats = {c: ".0%" for c in result.summary.columns if "coverage" in c}
-    formats |= {c: ".3f" for c in result.summary.columns if c.startswith(("brier", "pinball"))}
-    formats |= {"model_pinball": ".2f", "naive_pinball": ".2f"}
     reliability = result.reliability[
         ["threshold", "bin_from", "bin_to", "days", "mean_predicted", "observed_frequency"]
     ]
@@ -177,7 +174,7 @@ def hindcast_page(result, pictures: dict[str, bytes]) -> str:
     ]
     sections = [
         ("", f'<p class="headline">{html.escape(headline(result))}</p>'),
-        ("By horizon week", html.table(result.summary, formats)),
+        ("By horizon week", html.table(summary_view(result.summary)) + SUMMARY_NOTE),
         ("Coverage", html.image(pictures["coverage.png"], "coverage by horizon week")),
         ("Calibration (PIT)", html.image(pictures["pit.png"], "PIT histogram")),
         (
@@ -208,6 +205,36 @@ def find_latest_hindcast(roots: list[Path], scenario) -> str | None:
                 created = json.loads(sidecar.read_text()).get("created", "")
                 found.append((created, line))
     return max(found)[1] if found else None
+
+
+SUMMARY_NOTE = (
+    "<p>Coverage: share of days on which the recorded census fell inside the central 50%, "
+    "80% and 95% bands, for this setup and for the naive baseline (census at the start "
+    "carried forward). Pinball loss in patients, lower is better; skill = 1 - model / naive. "
+    "Brier score of P(census above beds - 2). All columns are in hindcast_summary.csv.</p>"
+)
+
+
+def summary_view(summary: pd.DataFrame) -> pd.DataFrame:
+    """The summary with readable headers, coverages side by side."""
+
+    def bands(prefix: str) -> pd.Series:
+        parts = [summary[f"{prefix}_coverage_{p}"].map("{:.0%}".format) for p in (50, 80, 95)]
+        return parts[0] + " / " + parts[1] + " / " + parts[2]
+
+    return pd.DataFrame(
+        {
+            "horizon week": summary["horizon_week"].map(lambda w: "all" if w == 0 else str(w)),
+            "days scored": summary["days"],
+            "start dates": summary["origins"],
+            "coverage 50 / 80 / 95%": bands("model"),
+            "naive coverage": bands("naive"),
+            "pinball": summary["model_pinball"].map("{:.2f}".format),
+            "naive pinball": summary["naive_pinball"].map("{:.2f}".format),
+            "skill": summary["pinball_skill"].map("{:.0%}".format),
+            "Brier, beds - 2": summary["brier_over_beds_minus_2"].map("{:.3f}".format),
+        }
+    )
 
 
 def latest_hindcast_line(folder: Path, scenario) -> str | None:
