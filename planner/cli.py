@@ -131,6 +131,8 @@ def _run_plan(plan, paths, seed, engine, jobs):
     """Forecast, simulate and summarise ``plan`` with the command's options."""
     from planner.pipeline import run_scenario
 
+    if sys.stderr.isatty():
+        click.echo(f"{plan.name}: forecasting admissions (fit, backtest, sample paths)", err=True)
     return run_scenario(
         plan, paths, seed, _progress("simulating"), None, engine or plan.engine, _jobs(jobs)
     )

@@ -64,19 +64,37 @@ def _check_alike(scenarios: list[Scenario]) -> None:
                 )
 
 
+def _run_one(file: Path, paths: int, seed: int, engine: str | None) -> RunResult:
+    """One scenario of a comparison, as run on a cluster worker."""
+    scenario = load_scenario(file)
+    return run_scenario(scenario, paths, seed, None, None, engine or scenario.engine, 1)
+
+
 def run_all(
-    files: list[Path], paths: int | None, seed: int | None, progress=None, engine=None, jobs=1
+    files: list[Path],
+    paths: int | None,
+    seed: int | None,
+    progress=None,
+    engine=None,
+    jobs=1,
+    scheduler: str | None = None,
 ):
     """Run every scenario with common random numbers, reusing forecasts where the history
-    and forecast settings agree."""
+    and forecast settings agree; with ``scheduler``, each scenario runs on a dask worker
+    (the forecast is then made on each worker, with the same result)."""
     scenarios = [load_scenario(file) for file in files]
     _check_alike(scenarios)
     paths = scenarios[0].paths if paths is None else paths
     seed = scenarios[0].seed if seed is None else seed
-    forecasts: dict[tuple, object] = {}
-    runs = []
     for scenario in scenarios:
         load_history(scenario)  # reports bad input before any long work
+    if scheduler is not None:
+        from planner.simulate.distributed import map_chunks
+
+        arguments = [(scenario.source, paths, seed, engine) for scenario in scenarios]
+        return tuple(map_chunks(scheduler, _run_one, arguments))
+    forecasts: dict[tuple, object] = {}
+    runs = []
     for number, scenario in enumerate(scenarios, start=1):
         step = None if progress is None else progress(f"{number}/{len(scenarios)}")
         known = forecasts.get(_forecast_key(scenario))
@@ -147,10 +165,10 @@ def cost_table(runs: tuple[RunResult, ...]) -> pd.DataFrame | None:
 
 
 def compare_scenarios(
-    files: list[Path], paths=None, seed=None, progress=None, engine=None, jobs=1
+    files: list[Path], paths=None, seed=None, progress=None, engine=None, jobs=1, scheduler=None
 ) -> Comparison:
     """Run and compare scenarios (the first is the reference)."""
     if len(files) < 2:
         raise PlannerError("compare: give at least two scenario files")
-    runs = run_all(files, paths, seed, progress, engine, jobs)
+    runs = run_all(files, paths, seed, progress, engine, jobs, scheduler)
     return Comparison(runs, comparison_table(runs), cost_table(runs))
