@@ -242,6 +242,6 @@ def run_scenario(
     )
     timings["simulate_s"] = time.perf_counter() - clock
     clock = time.perf_counter()
-    weekly = weekly_paths(ward.daily, ward.shifts, history.start)
+    weekly = weekly_paths(ward, history.start)
     timings["summarise_s"] = time.perf_counter() - clock
     return RunResult(scenario, history, forecast, inputs, ward, weekly, paths, seed, timings)

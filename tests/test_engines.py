@@ -9,7 +9,16 @@ import pandas as pd
 import pytest
 
 from planner.errors import PlannerError
-from planner.simulate.engines import ENGINES, chosen_engine, chunk_starts, covers, simulate
+from planner.simulate import distributed
+from planner.simulate.engines import (
+    ENGINES,
+    chosen_engine,
+    chunk_bounds,
+    chunk_starts,
+    covers,
+    simulate,
+)
+from planner.simulate.result import WardResult
 from planner.simulate.settings import BedChange, WardSettings
 from planner.simulate.stays import Lognormal
 from planner.simulate.ward import simulate_ward
@@ -70,6 +79,40 @@ def test_chunks_keep_first_path():
         .daily.drop(columns="path")
         .to_numpy(),
     )
+
+
+def test_chunks_of_at_most_chunk_paths_are_shared_evenly_by_the_jobs():
+    assert chunk_bounds(10_000, 2, 4096) == [(0, 2500), (2500, 5000), (5000, 7500), (7500, 10_000)]
+    assert chunk_bounds(300, 1, 100) == [(0, 100), (100, 200), (200, 300)]
+    assert chunk_bounds(7, 3, None) == [(0, 2), (2, 4), (4, 7)]
+    bounds = chunk_bounds(1001, 3, 64)
+    assert len(bounds) % 3 == 0 and max(hi - lo for lo, hi in bounds) <= 64
+    assert [lo for lo, _ in bounds[1:]] == [hi for _, hi in bounds[:-1]] and bounds[-1][1] == 1001
+
+
+def test_scheduler_runs_the_same_chunks(monkeypatch):
+    calls = []
+
+    def map_chunks(address, function, arguments):  # a cluster that runs the chunks here
+        calls.append((address, len(arguments)))
+        return [function(*chunk) for chunk in arguments]
+
+    monkeypatch.setattr(distributed, "map_chunks", map_chunks)
+    seen = []
+    result = run(scheduler="tcp://scheduler:8786", chunk=4, progress=lambda d, t: seen.append(d))
+    assert calls == [("tcp://scheduler:8786", 3)]
+    assert seen == [3, 6, 9]
+    assert_equal_results(result, run())
+
+
+def test_concatenated_chunks_equal_the_whole_run():
+    whole = run()
+    parts = [simulate(arrivals()[lo:hi], START, WARD, STAYS, ELAPSED, UNIFORM, 8, first_path=lo)
+             for lo, hi in ((0, 4), (4, 9))]  # fmt: skip
+    assert_equal_results(WardResult.concat(parts), whole)
+    np.testing.assert_array_equal(WardResult.concat(parts).census, whole.census)
+    with pytest.raises(ValueError, match="consecutive"):
+        WardResult.concat(parts[::-1])
 
 
 def test_chunk_starts_are_deterministic_and_cover_the_paths():

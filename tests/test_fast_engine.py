@@ -101,6 +101,23 @@ def test_same_staffing_tables_with_three_shifts():
     assert (fast.shifts["shortfall"] > 0).any()
 
 
+@pytest.mark.parametrize(("early", "late"), [(7.5, 19.5), (7.3, 19.3), (0.0, 12.0)])
+def test_same_staffing_tables_for_any_shift_times(early, late):
+    # Half hours are read from a table, 7.3 h (not a binary fraction of an hour) by search;
+    # a shift starting at 00:00 shares its boundary with midnight.
+    staffing = StaffingSettings(
+        shifts=(
+            Shift("early", early, late, 4.0, (5,) * 7),
+            Shift("late", late, early, 7.0, (3,) * 7),
+        )
+    )
+    ward = WardSettings(beds=20, staffing=staffing, bed_changes=CLOSURES)
+    arrivals = poisson_paths(8, 12, 21, 4.5)
+    fast = assert_same(arrivals, START, ward, Lognormal.from_mean_sd(5, 4), np.linspace(0, 7, 15),
+                       PEAKED, 8)  # fmt: skip
+    assert (fast.shifts["shortfall"] > 0).any()
+
+
 def test_same_result_when_chunked_and_seeded_by_sequence():
     arrivals = poisson_paths(4, 9, 20, 5.0)
     seed = np.random.SeedSequence(77).spawn(2)[1]  # the pipeline passes a spawned child

@@ -21,6 +21,7 @@ from planner.simulate.queueing import (
     infinite_server_mean,
     inpatients_remaining_mean,
 )
+from planner.simulate.result import DAILY_COLUMNS
 from planner.simulate.settings import BedChange, WardSettings
 from planner.simulate.stays import Exponential, Gamma, Lognormal, Weibull
 from planner.simulate.summary import summarise_daily, summarise_shifts
@@ -385,6 +386,29 @@ def test_shift_table_follows_occupancy():
     np.testing.assert_array_equal(day_shift["nurses_required"], expected)
     assert result.shifts["nurses_rostered"].tolist()[:2] == [5, 3]
     assert list(result.shifts.dtypes.astype(str))[3:] == ["int32"] * 4
+
+
+def test_tidy_tables_are_the_arrays_row_by_row():
+    arrivals = poisson_paths(12, 3, np.full(5, 5.0))
+    ward = WardSettings(beds=6, bed_changes=CLOSURES)
+    stays = Exponential.from_mean(2.0)
+    result = simulate_ward(arrivals, START, ward, stays, np.ones(4), UNIFORM, 12, first_path=7)
+    daily = result.daily
+    assert list(daily.columns) == ["path", "date", *DAILY_COLUMNS]
+    assert daily["date"].dtype == "datetime64[s]" and daily["wait_hours"].dtype == "float64"
+    counts = ["path", *(name for name in DAILY_COLUMNS if name != "wait_hours")]
+    assert all(daily[name].dtype == "int32" for name in counts)
+    assert daily["path"].tolist() == [7] * 5 + [8] * 5 + [9] * 5
+    assert daily["date"].iloc[:5].dt.day.tolist() == [1, 2, 3, 4, 5]
+    np.testing.assert_array_equal(daily["census"].to_numpy().reshape(3, 5), result.census)
+    # 6 beds, +3 on the first day, -6 from Jan 5 (hand count from the bed changes).
+    np.testing.assert_array_equal(daily["beds_open"].iloc[5:10], [9, 6, 6, 6, 0])
+    shifts = result.shifts
+    assert list(shifts.columns) == ["path", "date", "shift", "peak_occupancy", "nurses_required",
+                                    "nurses_rostered", "shortfall"]  # fmt: skip
+    assert list(shifts["shift"].cat.categories) == ["day", "night"]
+    assert shifts["shift"].iloc[:4].tolist() == ["day", "night", "day", "night"]
+    np.testing.assert_array_equal(shifts["shortfall"].to_numpy().reshape(3, 5, 2), result.shortfall)
 
 
 def test_summaries_across_paths():

@@ -6,44 +6,37 @@ import numpy as np
 import pandas as pd
 
 from planner.report.weekly import any_shortfall, mean_se, share_se, weekly_paths, weekly_table
+from planner.simulate.result import PATH_DAILY, WardResult
 
 START = pd.Timestamp("2026-11-30")
 
 
-def frames():
-    """Two paths, 14 days. Path 0: one patient waits 3 hours on day 2 (week 1); path 1: two
-    patients diverted on day 9 (week 2). Night shift short on day 10 in path 0 only."""
-    dates = pd.date_range(START, periods=14)
-    daily = pd.DataFrame(
-        {
-            "path": np.repeat([0, 1], 14),
-            "date": np.tile(dates, 2),
-            "waited": 0,
-            "diverted": 0,
-            "wait_hours": 0.0,
-            "peak_occupancy": 20,
-            "beds_open": np.tile([28] * 7 + [30] * 7, 2),
-        }
+def hand_result() -> WardResult:
+    """Two paths, 14 days, shifts "day" and "night". Path 0: one patient waits 3 hours on
+    day 2 (week 1); path 1: two patients diverted on day 9 (week 2), when 30 beds are
+    occupied. Night shift short on day 10 in path 0 only. Rostered 6 by day, 4 at night."""
+    daily = {name: np.zeros((2, 14), dtype=np.int32) for name in PATH_DAILY}
+    daily["wait_hours"] = np.zeros((2, 14))
+    daily["peak_occupancy"][:] = 20
+    daily["waited"][0, 2], daily["wait_hours"][0, 2] = 1, 3.0
+    daily["diverted"][1, 9], daily["peak_occupancy"][1, 9] = 2, 30
+    shortfall = np.zeros((2, 14, 2), dtype=np.int32)
+    shortfall[0, 10, 1] = 1
+    return WardResult(
+        start=START.date(),
+        first_path=0,
+        **daily,
+        beds_open=np.array([28] * 7 + [30] * 7, dtype=np.int32),
+        shift_names=("day", "night"),
+        shift_peak_occupancy=np.zeros((2, 14, 2), dtype=np.int32),
+        nurses_required=np.zeros((2, 14, 2), dtype=np.int32),
+        nurses_rostered=np.tile(np.array([6, 4], dtype=np.int32), (14, 1)),
+        shortfall=shortfall,
     )
-    daily.loc[2, ["waited", "wait_hours"]] = [1, 3.0]
-    daily.loc[14 + 9, "diverted"] = 2
-    daily.loc[14 + 9, "peak_occupancy"] = 30
-    shifts = pd.DataFrame(
-        {
-            "path": np.repeat([0, 1], 28),
-            "date": np.tile(np.repeat(dates, 2), 2),
-            "shift": np.tile(["day", "night"], 28),
-            "nurses_rostered": np.tile([6, 4], 28),
-            "shortfall": 0,
-        }
-    )
-    shifts.loc[2 * 10 + 1, "shortfall"] = 1
-    return daily, shifts
 
 
 def test_weekly_hand_count():
-    daily, shifts = frames()
-    weekly = weekly_paths(daily, shifts, START)
+    weekly = weekly_paths(hand_result(), START)
     np.testing.assert_array_equal(weekly.bed_shortfall, [[True, False], [False, True]])
     np.testing.assert_array_equal(weekly.patients_affected, [[1, 0], [0, 2]])
     np.testing.assert_array_equal(weekly.wait_hours, [[3, 0], [0, 0]])
@@ -51,6 +44,7 @@ def test_weekly_hand_count():
     np.testing.assert_array_equal(weekly.staff_shortfall, [[False, True], [False, False]])
     np.testing.assert_array_equal(weekly.beds_open, [28, 30])
     np.testing.assert_array_equal(weekly.nurse_shifts, [70, 70])  # 7 x (6 + 4)
+    np.testing.assert_array_equal(weekly.bed_days, [196, 210])  # 7 x 28, 7 x 30
     table = weekly_table(weekly)
     assert list(table["week_start"]) == ["2026-11-30", "2026-12-07"]
     np.testing.assert_allclose(table["p_bed_shortfall"], [0.5, 0.5])
@@ -60,6 +54,14 @@ def test_weekly_hand_count():
     np.testing.assert_allclose(table["p_staff_shortfall"], [0.0, 0.5])
     np.testing.assert_allclose(table["expected_short_shifts"], [0.0, 0.5])
     assert any_shortfall(weekly, 2)[0] == 1.0 and any_shortfall(weekly, 1)[0] == 0.5
+
+
+def test_weeks_from_a_later_start_drop_the_days_before():
+    # Counting from day 7 leaves one whole week (days 7-13): path 1's diversion on day 9.
+    weekly = weekly_paths(hand_result(), START + pd.Timedelta(days=7))
+    assert list(weekly_table(weekly)["week_start"]) == ["2026-12-07"]
+    np.testing.assert_array_equal(weekly.patients_affected, [[0], [2]])
+    np.testing.assert_array_equal(weekly.staff_shortfall, [[True], [False]])
 
 
 def test_standard_errors():

@@ -19,9 +19,12 @@ Morris, White & Crowther, Stat. Med. 38 (2019), Table 6).
 from __future__ import annotations
 
 from dataclasses import dataclass
+from datetime import date
 
 import numpy as np
 import pandas as pd
+
+from planner.simulate.result import WardResult
 
 
 @dataclass(frozen=True)
@@ -45,16 +48,6 @@ class WeeklyPaths:
         return self.bed_shortfall.shape[0]
 
 
-def _grid(frame: pd.DataFrame, column: str, start: pd.Timestamp, days: int) -> np.ndarray:
-    """Values of ``column`` as a (paths, days) array, summing rows that share a path and day."""
-    day = (pd.to_datetime(frame["date"]) - start).dt.days.to_numpy()
-    path = frame["path"].to_numpy()
-    paths = int(path.max()) + 1
-    grid = np.zeros((paths, days))
-    np.add.at(grid, (path, day), frame[column].to_numpy(dtype=float))
-    return grid
-
-
 def _weeks(grid: np.ndarray, how: str) -> np.ndarray:
     """Complete 7-day blocks of a (paths, days) array, reduced by ``how`` ("sum" or "max")."""
     weeks = grid.shape[1] // 7
@@ -62,28 +55,35 @@ def _weeks(grid: np.ndarray, how: str) -> np.ndarray:
     return blocks.sum(axis=2) if how == "sum" else blocks.max(axis=2)
 
 
-def weekly_paths(daily: pd.DataFrame, shifts: pd.DataFrame, start: pd.Timestamp) -> WeeklyPaths:
-    """Reduce the simulation's tidy daily and shift tables to per-path weekly measures."""
-    start = pd.Timestamp(start)
-    days = int((pd.to_datetime(daily["date"]).max() - start).days) + 1
-    affected = _grid(daily, "waited", start, days) + _grid(daily, "diverted", start, days)
-    short = shifts.assign(short=(shifts["shortfall"] > 0).astype(float))
-    short_grid = _grid(short, "short", start, days)
-    beds = _grid(daily, "beds_open", start, days)[0]
-    rostered = _grid(shifts, "nurses_rostered", start, days)[0]
-    weeks = days // 7
+def weekly_paths(result: WardResult, start: date | pd.Timestamp | None = None) -> WeeklyPaths:
+    """Reduce the simulated ward to per-path weekly measures, weeks counted from ``start``
+    (default: the first simulated day; a later day drops the days before it)."""
+    first = pd.Timestamp(result.start)
+    start = first if start is None else pd.Timestamp(start)
+    skip = (start - first).days
+    if skip < 0:
+        raise ValueError(f"start {start.date()} is before the simulation's first day")
+
+    def grid(values: np.ndarray) -> np.ndarray:
+        return np.asarray(values[:, skip:], dtype=float)
+
+    affected = grid(result.waited) + grid(result.diverted)
+    short_grid = grid(result.shortfall > 0).sum(axis=2)
+    beds = grid(result.beds_open[None, :])
+    rostered = grid(result.nurses_rostered[None, :, :]).sum(axis=2)
+    weeks = (result.days - skip) // 7
     return WeeklyPaths(
         week_start=pd.date_range(start, periods=weeks, freq="7D"),
         bed_shortfall=_weeks(affected, "sum") > 0,
         patients_affected=_weeks(affected, "sum"),
-        diverted=_weeks(_grid(daily, "diverted", start, days), "sum"),
-        wait_hours=_weeks(_grid(daily, "wait_hours", start, days), "sum"),
-        peak_census=_weeks(_grid(daily, "peak_occupancy", start, days), "max"),
+        diverted=_weeks(grid(result.diverted), "sum"),
+        wait_hours=_weeks(grid(result.wait_hours), "sum"),
+        peak_census=_weeks(grid(result.peak_occupancy), "max"),
         staff_shortfall=_weeks(short_grid, "sum") > 0,
         short_shifts=_weeks(short_grid, "sum"),
-        beds_open=_weeks(beds[None, :], "sum")[0] / 7.0,
-        bed_days=_weeks(beds[None, :], "sum")[0],
-        nurse_shifts=_weeks(rostered[None, :], "sum")[0],
+        beds_open=_weeks(beds, "sum")[0] / 7.0,
+        bed_days=_weeks(beds, "sum")[0],
+        nurse_shifts=_weeks(rostered, "sum")[0],
     )
 
 

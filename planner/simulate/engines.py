@@ -5,9 +5,10 @@ Engines: "simpy" (:func:`planner.simulate.ward.simulate_ward`, one SimPy run per
 fast engine whenever it covers the ward set-up). With the default random streams both engines
 give the same result for the same seed, so the choice changes the run time, not the numbers.
 
-``jobs`` > 1 splits the paths into consecutive chunks run in worker processes; each chunk
-passes its ``first_path``, so every path draws its own streams and the concatenated result is
-identical to ``jobs = 1``.
+``jobs`` > 1 splits the paths into consecutive chunks run in worker processes, or, given a
+``scheduler``, on a dask.distributed cluster (:mod:`planner.simulate.distributed`); each chunk
+passes its ``first_path``, so every path draws its own streams and the result, the chunks'
+arrays joined along the path axis, is identical to ``jobs = 1``.
 """
 
 from __future__ import annotations
@@ -18,12 +19,12 @@ from datetime import date
 from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
 
 from planner.errors import PlannerError
 from planner.simulate.fast import simulate_ward_fast
+from planner.simulate.result import WardResult
 from planner.simulate.settings import WardSettings
-from planner.simulate.ward import POLICIES, WardResult, simulate_ward
+from planner.simulate.ward import POLICIES, simulate_ward
 
 if TYPE_CHECKING:
     from planner.simulate.stays import StayDistribution
@@ -65,11 +66,18 @@ def _run(engine, arrivals, start, ward, stays, elapsed, profile, seed, first_pat
     )  # fmt: skip
 
 
-def _concat(parts: list[WardResult]) -> WardResult:
-    return WardResult(
-        daily=pd.concat([part.daily for part in parts], ignore_index=True),
-        shifts=pd.concat([part.shifts for part in parts], ignore_index=True),
-    )
+def chunk_bounds(paths: int, jobs: int, chunk: int | None) -> list[tuple[int, int]]:
+    """Consecutive (first, end) paths of each chunk: ``jobs`` chunks of nearly equal size, or,
+    given ``chunk``, chunks of at most ``chunk`` paths, as many as a multiple of ``jobs`` so
+    that the workers get equal shares."""
+    if chunk is not None and (int(chunk) != chunk or chunk < 1):
+        raise PlannerError(f"chunk must be a whole number >= 1, got {chunk!r}")
+    firsts = chunk_starts(paths, jobs)
+    if chunk is not None:
+        rounds = max(-(-paths // (int(jobs) * int(chunk))), 1)
+        firsts = chunk_starts(paths, rounds * int(jobs))
+    bounds = [*firsts, paths]
+    return list(zip(bounds[:-1], bounds[1:], strict=True))
 
 
 def simulate(
@@ -87,28 +95,26 @@ def simulate(
     streams: str = "spawned",
     chunk: int | None = None,
     progress: Callable[[int, int], None] | None = None,
+    scheduler: str | None = None,
 ) -> WardResult:
     """Simulate the ward for every path of daily ``arrivals`` (paths x days, patients) with
     ``engine``, in ``jobs`` worker processes. Arguments as for
     :func:`planner.simulate.ward.simulate_ward`; ``streams`` ("spawned" or "counter") is
     passed to the fast engine (the SimPy engine always uses "spawned"). Paths run in chunks
-    of ``chunk`` paths (default: an even split over the jobs), and ``progress(done, total)``
-    is called as chunks finish. The result depends on neither ``jobs`` nor ``chunk``."""
+    (:func:`chunk_bounds`: at most ``chunk`` paths each, default an even split over the
+    jobs), and ``progress(done, total)`` is called as chunks finish. ``scheduler``: address
+    of a dask.distributed scheduler to run the chunks on instead of local processes. The
+    result depends on neither ``jobs``, ``chunk`` nor ``scheduler``."""
     name = chosen_engine(engine, ward)
     if name == "simpy" and streams != "spawned":
         raise PlannerError('streams: the simpy engine draws only the "spawned" streams')
-    if chunk is not None and (int(chunk) != chunk or chunk < 1):
-        raise PlannerError(f"chunk must be a whole number >= 1, got {chunk!r}")
     arrivals = np.asarray(arrivals)
     paths = arrivals.shape[0] if arrivals.ndim == 2 else 1
-    if chunk is None:
-        firsts = chunk_starts(paths, jobs)
-    else:
-        chunk_starts(paths, jobs)  # validates jobs
-        firsts = list(range(0, paths, int(chunk))) or [0]
-    bounds = [*firsts, paths]
-    pieces = list(zip(bounds[:-1], bounds[1:], strict=True))
+    pieces = chunk_bounds(paths, jobs, chunk)
     common = (start, ward, stays, inpatients_elapsed, hour_profile, seed)
+    arguments = {
+        lo: (name, arrivals[lo:hi], *common, first_path + lo, streams) for lo, hi in pieces
+    }
     parts: dict[int, WardResult] = {}
 
     def finished(lo: int, part: WardResult) -> None:
@@ -116,15 +122,18 @@ def simulate(
         if progress is not None:
             progress(sum(hi - low for low, hi in pieces if low in parts), paths)
 
-    if jobs == 1 or len(pieces) == 1:
-        for lo, hi in pieces:
-            finished(lo, _run(name, arrivals[lo:hi], *common, first_path + lo, streams))
+    if scheduler is not None:
+        from planner.simulate.distributed import map_chunks
+
+        results = map_chunks(scheduler, _run, [arguments[lo] for lo, _ in pieces])
+        for (lo, _), part in zip(pieces, results, strict=True):
+            finished(lo, part)
+    elif jobs == 1 or len(pieces) == 1:
+        for lo, _ in pieces:
+            finished(lo, _run(*arguments[lo]))
     else:
         with ProcessPoolExecutor(max_workers=min(int(jobs), len(pieces))) as pool:
-            futures = {
-                pool.submit(_run, name, arrivals[lo:hi], *common, first_path + lo, streams): lo
-                for lo, hi in pieces
-            }
+            futures = {pool.submit(_run, *arguments[lo]): lo for lo, _ in pieces}
             for future in as_completed(futures):
                 finished(futures[future], future.result())
-    return _concat([parts[lo] for lo, _ in pieces])
+    return WardResult.concat([parts[lo] for lo, _ in pieces])

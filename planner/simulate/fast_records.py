@@ -6,7 +6,13 @@ b_0 < b_1 < ... (midnights, or shift starts), the level just before each boundar
 events before it; the peak of the interval [b_k, b_k+1) is the larger of the level just before
 b_k and the highest level reached just after a patient took a bed inside the interval. These
 are the definitions of :mod:`planner.simulate.ward` (events exactly at a boundary count in the
-interval they start), computed without sorting any path's events.
+interval they start).
+
+Midnights and shift starts together cut the window into pieces (``days x pieces per day``);
+each event is counted in its piece once, and the daily and per-shift records are sums and
+maxima over pieces. When every boundary is a multiple of 1/q hour for q a power of two up to
+64 (whole hours, half hours, quarter hours, ...), an event's piece is read from a table
+indexed by floor(q x hour), exactly; otherwise it is found by binary search on the boundaries.
 """
 
 from __future__ import annotations
@@ -15,49 +21,59 @@ import numpy as np
 
 from planner.simulate.fast_beds import HOURS_PER_DAY, BedTimes
 
-
-def _per_path_counts(paths: int, bins: int, path: np.ndarray, where: np.ndarray, weights=None):
-    """(paths, bins) totals of events of ``path`` falling in bin ``where``, summed in the
-    order given (so sums of hours match a per-path loop bit for bit)."""
-    flat = np.bincount(path * bins + where, weights=weights, minlength=paths * bins)
-    return flat.reshape(paths, bins)
+#: Table steps tried, hours: 1, 1/2, ..., 1/64.
+_STEPS = tuple(2**n for n in range(7))
 
 
-def levels_and_peaks(
-    paths: int,
-    inpatients: int,
-    start_path: np.ndarray,
-    started: np.ndarray,
-    start_level: np.ndarray,
-    end_path: np.ndarray,
-    ended: np.ndarray,
-    count: int,
-) -> tuple[np.ndarray, np.ndarray]:
-    """Occupied beds just before each of ``count`` boundaries (paths x count) and the peak in
-    each interval between them (paths x count - 1), patients.
+class Pieces:
+    """The pieces of a window of ``days`` days cut at midnights and at ``shift_starts``
+    (hours of the day, sorted): boundaries ``bounds`` (hours, the end of the window last)."""
 
-    ``start_*``: path, number of boundaries at or before the hour, and occupied beds just after
-    each patient took a bed; ``end_*``: path and number of boundaries at or before the hour of
-    each discharge (discharges at or after the last boundary are not counted)."""
-    before = np.cumsum(
-        _per_path_counts(paths, count + 1, start_path, started)
-        - _per_path_counts(paths, count + 1, end_path, ended),
-        axis=1,
-    )[:, :count]
-    level = inpatients + before
-    within = np.full(paths * (count - 1), -1, dtype=np.int64)
-    inside = (started >= 1) & (started < count)
-    np.maximum.at(
-        within, start_path[inside] * (count - 1) + started[inside] - 1, start_level[inside]
-    )
-    peak = np.maximum(level[:, :-1], within.reshape(paths, count - 1))
-    return level, peak
+    def __init__(self, days: int, shift_starts: np.ndarray):
+        self.days = days
+        self.cuts = np.unique(np.concatenate([[0.0], shift_starts]))  # hours of the day
+        self.per_day = self.cuts.size
+        self.bounds = np.append(
+            (HOURS_PER_DAY * np.arange(days)[:, None] + self.cuts).ravel(), HOURS_PER_DAY * days
+        )
+        self.count = self.bounds.size + 1  # piece i holds hours with i boundaries at or before
+        self.shift_bounds = (
+            np.searchsorted(self.cuts, shift_starts) + self.per_day * np.arange(days)[:, None]
+        )
+        self.step = next(
+            (q for q in _STEPS if np.all(self.cuts * q == np.floor(self.cuts * q))), None
+        )
+        if self.step is not None:
+            ticks = np.arange(int(HOURS_PER_DAY * days * self.step) + 1) / self.step
+            self.table = np.searchsorted(self.bounds, ticks, side="right")
+
+    def index(self, hours: np.ndarray, clip: bool = True) -> np.ndarray:
+        """Piece of each hour: the number of boundaries at or before it (hours >= 0; those at
+        or after the end of the window all get the last piece; ``clip=False`` when no hour
+        is after the end)."""
+        if clip:
+            hours = np.minimum(hours, HOURS_PER_DAY * self.days)
+        if self.step is None:
+            return np.searchsorted(self.bounds, hours, side="right")
+        return self.table[(hours * self.step if self.step != 1 else hours).astype(np.intp)]
+
+    def by_day(self, values: np.ndarray) -> np.ndarray:
+        """(paths, days, pieces per day) view of the window's pieces of (paths, pieces)."""
+        inside = values[:, 1 : 1 + self.days * self.per_day]
+        return inside.reshape(values.shape[0], self.days, self.per_day)
 
 
-def _interval_of_day(hours: np.ndarray, days: int) -> np.ndarray:
-    """Midnights 0, 24, ..., 24 days at or before each hour >= 0 (``searchsorted(..., "right")``
-    on the midnights, exactly: floor division of floats is exact)."""
-    return np.minimum(hours // HOURS_PER_DAY + 1, days + 1).astype(np.int64)
+def _over_day(parts: np.ndarray, ufunc: np.ufunc) -> np.ndarray:
+    """``ufunc`` (np.add or np.maximum) over the last, short axis of (paths, days, pieces)."""
+    out = parts[..., 0].copy()
+    for j in range(1, parts.shape[2]):
+        ufunc(out, parts[..., j], out=out)
+    return out
+
+
+def _per_piece(paths: int, bins: int, piece: np.ndarray) -> np.ndarray:
+    """(paths, bins) events per path and piece, from flat indices path x bins + piece."""
+    return np.bincount(piece.ravel(), minlength=paths * bins).reshape(paths, bins)
 
 
 def daily_records(
@@ -66,11 +82,11 @@ def daily_records(
     path_of_column: np.ndarray,
     counts: np.ndarray,
     remaining: np.ndarray,
-    beds_open: np.ndarray,
-    shift_bounds: np.ndarray,
+    pieces: Pieces,
 ) -> tuple[dict[str, np.ndarray], np.ndarray]:
-    """The daily columns of ``WardResult.daily`` as (paths x days) arrays, and the peak
-    occupancy of every shift interval (paths x intervals), from the patients' bed times.
+    """The daily measures of ``WardResult`` as (paths x days) arrays, and the peak occupancy
+    of every shift (paths x days x shifts, shifts in the order of the starts given to
+    ``pieces``), from the patients' bed times.
 
     ``times`` and ``arrival`` (exact arrival hours) are (arrival slots x columns), column j
     holding path ``path_of_column[j]``; ``counts``: admissions per path and day (paths in
@@ -79,53 +95,53 @@ def daily_records(
     model, so they agree bit for bit.
     """
     paths, days = counts.shape
-    horizon = HOURS_PER_DAY * days
-    totals = counts.sum(axis=1)[path_of_column]
-    used = np.arange(arrival.shape[0])[:, None] < totals[None, :]
-    path = path_of_column[np.nonzero(used)[1]]
-    hours = arrival[used]
-    arrival_day = (hours // HOURS_PER_DAY).astype(np.int64)  # exact: arrivals of day d < 24(d+1)
+    bins, per_day = pieces.count, pieces.per_day
+    started = pieces.index(times.bed_hour, clip=False)
+    started += (path_of_column * bins)[None, :]
+    starts = _per_piece(paths, bins, started)
+    ended = pieces.index(times.released)
+    ended += (path_of_column * bins)[None, :]
+    ended_before = pieces.index(remaining)
+    ended_before += (np.arange(paths) * bins)[:, None]
+    ends = _per_piece(paths, bins, ended)
+    ends += _per_piece(paths, bins, ended_before)
+    within = np.full(paths * bins, -1, dtype=times.level.dtype)  # same dtypes: fast ufunc.at
+    np.maximum.at(within, started.ravel(), times.level.ravel())
+    within = within.reshape(paths, bins)
 
-    def day_of(values):
-        return np.minimum((values // HOURS_PER_DAY).astype(np.int64), days - 1)
+    slot, column = np.nonzero(times.waited)
+    waited_path = path_of_column[column]
+    waited_day = (arrival[slot, column] // HOURS_PER_DAY).astype(np.int64)
+    hours_waited = times.bed_hour[slot, column] - arrival[slot, column]
+    slot, column = np.nonzero(times.diverted) if times.diverted.any() else (slot[:0], column[:0])
+    diverted_day = (arrival[slot, column] // HOURS_PER_DAY).astype(np.int64)
 
-    bed_hour = times.bed_hour[used]
-    in_bed = ~np.isnan(bed_hour)
-    waited = times.waited[used]
-    diverted = times.diverted[used]
-    from_queue = waited & in_bed
-    released = times.released[used]
-    out = released < horizon
-    end_hour = np.concatenate([remaining.ravel(), released[out]])
-    end_path = np.concatenate([np.repeat(np.arange(paths), remaining.shape[1]), path[out]])
-    end_path, end_hour = end_path[end_hour < horizon], end_hour[end_hour < horizon]
-    hours_waited = np.where(in_bed, bed_hour, horizon)[waited] - hours[waited]
-    start_path, start_hour = path[in_bed], bed_hour[in_bed]
-    start_day = day_of(start_hour)
+    def each_day(path, day, weights=None):
+        flat = np.bincount(path * days + day, weights=weights, minlength=paths * days)
+        return flat.reshape(paths, days)
 
     daily = {
-        "admissions": counts.astype(np.float64),
-        "bed_admissions": _per_path_counts(paths, days, start_path, start_day),
-        "discharges": _per_path_counts(paths, days, end_path, day_of(end_hour)),
-        "waited": _per_path_counts(paths, days, path[waited], arrival_day[waited]),
-        "diverted": _per_path_counts(paths, days, path[diverted], arrival_day[diverted]),
-        "wait_hours": _per_path_counts(
-            paths, days, path[waited], arrival_day[waited], weights=hours_waited
-        ),
+        "admissions": counts,
+        "bed_admissions": _over_day(pieces.by_day(starts), np.add),
+        "discharges": _over_day(pieces.by_day(ends), np.add),
+        "waited": each_day(waited_path, waited_day),
+        "diverted": each_day(path_of_column[column], diverted_day),
+        "wait_hours": each_day(waited_path, waited_day, weights=hours_waited),
     }
-    joined = _per_path_counts(paths, days, path[from_queue], day_of(bed_hour[from_queue]))
-    daily["queue"] = np.cumsum(daily["waited"], axis=1) - np.cumsum(joined, axis=1)
-    daily["beds_open"] = np.broadcast_to(beds_open, (paths, days))
-    start_level = times.level[used][in_bed]
-    inpatients = remaining.shape[1]
-    level, peak = levels_and_peaks(
-        paths, inpatients, start_path, _interval_of_day(start_hour, days), start_level,
-        end_path, _interval_of_day(end_hour, days), days + 1,
-    )  # fmt: skip
-    daily["census"], daily["peak_occupancy"] = level[:, 1:], peak
-    _, shift_peak = levels_and_peaks(
-        paths, inpatients, start_path, np.searchsorted(shift_bounds, start_hour, side="right"),
-        start_level, end_path, np.searchsorted(shift_bounds, end_hour, side="right"),
-        shift_bounds.size,
-    )  # fmt: skip
+    # Patients who joined from the queue = bed admissions - those given a bed on arrival.
+    joined = daily["bed_admissions"] - (counts - daily["waited"] - daily["diverted"])
+    daily["queue"] = np.cumsum(daily["waited"] - joined, axis=1)
+    # Level just before boundary i = inpatients + events in pieces 0..i.
+    level = np.subtract(starts, ends, out=starts)
+    np.cumsum(level, axis=1, out=level)
+    level += remaining.shape[1]
+    daily["census"] = level[:, per_day : per_day * days + 1 : per_day]
+    midnight = level[:, 0 : per_day * days : per_day]
+    daily["peak_occupancy"] = np.maximum(midnight, _over_day(pieces.by_day(within), np.maximum))
+    first = pieces.shift_bounds.ravel()  # boundary number of each shift's start
+    shift_peak = np.maximum.reduceat(within[:, : days * per_day + 1], first + 1, axis=1)
+    shift_peak = shift_peak.reshape(paths, days, -1)
+    at_start = level[:, : days * per_day].reshape(paths, days, per_day)
+    for j, position in enumerate(pieces.shift_bounds[0]):
+        np.maximum(shift_peak[..., j], at_start[..., position], out=shift_peak[..., j])
     return daily, shift_peak

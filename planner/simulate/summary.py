@@ -11,7 +11,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from planner.simulate.ward import WardResult
+from planner.simulate.result import WardResult
 
 QUANTILES = (0.05, 0.10, 0.25, 0.50, 0.75, 0.90, 0.95)
 
@@ -21,10 +21,11 @@ def quantile_names(measure: str, quantiles: tuple[float, ...] = QUANTILES) -> li
     return [f"{measure}_p{round(100 * q):02d}" for q in quantiles]
 
 
-def _by_path(frame: pd.DataFrame, keys: list[str], column: str) -> tuple[pd.DataFrame, np.ndarray]:
-    """Values of ``column`` as an array (rows of ``keys``, paths) and the key rows."""
-    wide = frame.pivot_table(index=keys, columns="path", values=column, observed=True)
-    return wide.index.to_frame(index=False), wide.to_numpy(dtype=float)
+def _by_day(values: np.ndarray) -> np.ndarray:
+    """Per-path values (paths, rows...) as a float (rows, paths) array, C order: the layout
+    of a pivot with one column per path, so that means and quantiles across paths are
+    computed in the same order as from the tidy tables."""
+    return np.ascontiguousarray(values.reshape(values.shape[0], -1).T, dtype=float)
 
 
 def _quantile_columns(values: np.ndarray, measure: str) -> dict[str, np.ndarray]:
@@ -36,28 +37,26 @@ def summarise_daily(result: WardResult) -> pd.DataFrame:
     """One row per day: date, beds_open, census and peak_occupancy quantiles (patients),
     p_no_bed (share of paths in which some patient that day found no free bed: waited or
     diverted), expected_waited, expected_diverted (patients), expected_wait_hours (hours)."""
-    daily = result.daily.assign(no_bed=(result.daily["waited"] + result.daily["diverted"]) > 0)
-    keys, census = _by_path(daily, ["date"], "census")
-    table = {"date": keys["date"].to_numpy()}
-    table["beds_open"] = _by_path(daily, ["date"], "beds_open")[1].max(axis=1).astype(np.int32)
-    table |= _quantile_columns(census, "census")
-    table |= _quantile_columns(_by_path(daily, ["date"], "peak_occupancy")[1], "peak_occupancy")
-    table["p_no_bed"] = _by_path(daily, ["date"], "no_bed")[1].mean(axis=1)
+    table = {"date": result.dates.astype("datetime64[s]")}
+    table["beds_open"] = result.beds_open.astype(np.int32)
+    table |= _quantile_columns(_by_day(result.census), "census")
+    table |= _quantile_columns(_by_day(result.peak_occupancy), "peak_occupancy")
+    table["p_no_bed"] = _by_day((result.waited + result.diverted) > 0).mean(axis=1)
     for column in ("waited", "diverted", "wait_hours"):
-        table[f"expected_{column}"] = _by_path(daily, ["date"], column)[1].mean(axis=1)
+        table[f"expected_{column}"] = _by_day(getattr(result, column)).mean(axis=1)
     return pd.DataFrame(table)
 
 
 def summarise_shifts(result: WardResult) -> pd.DataFrame:
     """One row per day and shift: date, shift, nurses_rostered, nurses_required quantiles,
     p_short (share of paths in which the shift is short of nurses) and expected_shortfall."""
-    shifts = result.shifts.assign(short=result.shifts["shortfall"] > 0)
-    keys = ["date", "shift"]
-    rows, required = _by_path(shifts, keys, "nurses_required")
-    table = {"date": rows["date"].to_numpy(), "shift": rows["shift"].to_numpy()}
-    rostered = _by_path(shifts, keys, "nurses_rostered")[1]
-    table["nurses_rostered"] = rostered.max(axis=1).astype(np.int32)
-    table |= _quantile_columns(required, "nurses_required")
-    table["p_short"] = _by_path(shifts, keys, "short")[1].mean(axis=1)
-    table["expected_shortfall"] = _by_path(shifts, keys, "shortfall")[1].mean(axis=1)
+    days, count = result.nurses_rostered.shape
+    table = {
+        "date": np.repeat(result.dates, count).astype("datetime64[s]"),
+        "shift": np.tile(np.array(result.shift_names, dtype=object), days),
+    }
+    table["nurses_rostered"] = result.nurses_rostered.ravel().astype(np.int32)
+    table |= _quantile_columns(_by_day(result.nurses_required), "nurses_required")
+    table["p_short"] = _by_day(result.shortfall > 0).mean(axis=1)
+    table["expected_shortfall"] = _by_day(result.shortfall).mean(axis=1)
     return pd.DataFrame(table)

@@ -23,45 +23,22 @@ For every path: current inpatients + arrivals = discharges + in beds at end + di
 from __future__ import annotations
 
 from collections import deque
-from dataclasses import dataclass
 from datetime import date, timedelta
 from typing import TYPE_CHECKING
 
 import numpy as np
-import pandas as pd
 import simpy
 
 from planner.errors import PlannerError
 from planner.simulate.arrivals import arrival_times
+from planner.simulate.result import PATH_DAILY, WardResult, ward_result
 from planner.simulate.settings import WardSettings
-from planner.simulate.staffing import shift_table, validate_staffing
+from planner.simulate.staffing import validate_staffing
 
 if TYPE_CHECKING:
     from planner.simulate.stays import StayDistribution
 
 POLICIES = ("wait", "divert")
-DAILY_COLUMNS = (
-    "census", "peak_occupancy", "admissions", "bed_admissions", "discharges",
-    "waited", "diverted", "wait_hours", "queue", "beds_open",
-)  # fmt: skip
-
-
-@dataclass(frozen=True)
-class WardResult:
-    """Simulated ward, tidy tables (one row per path x day, and per path x day x shift).
-
-    ``daily``: path, date, census (occupied beds at 24:00), peak_occupancy (most occupied beds
-    during the day), admissions (arrivals that day), bed_admissions (patients given a bed that
-    day), discharges, waited (arrivals that day who found no free bed, "wait" policy), diverted
-    (arrivals that day placed elsewhere, "divert" policy), wait_hours (hours waited by that day's
-    arrivals), queue (patients waiting at 24:00), beds_open.
-    ``shifts``: path, date (day the shift starts), shift, peak_occupancy, nurses_required,
-    nurses_rostered, shortfall (nurses). The last overnight shift is cut at the end of the window;
-    the overnight shift that began the evening before the window is not reported.
-    """
-
-    daily: pd.DataFrame
-    shifts: pd.DataFrame
 
 
 def beds_open_by_day(ward: WardSettings, start: date, days: int) -> np.ndarray:
@@ -225,7 +202,7 @@ def simulate_ward(
     starts = np.array([shifts[j].start_hour for j in order])
     shift_bounds = np.append((24.0 * np.arange(days)[:, None] + starts).ravel(), horizon)
     day_bounds = 24.0 * np.arange(days + 1)
-    daily = {name: np.zeros((paths, days), dtype=np.float64) for name in DAILY_COLUMNS}
+    daily = {name: np.zeros((paths, days), dtype=np.float64) for name in PATH_DAILY}
     shift_peak = np.zeros((paths, days, len(shifts)), dtype=np.int32)
 
     def day_of(hours):
@@ -267,26 +244,6 @@ def simulate_ward(
         daily["queue"][i] = np.cumsum(daily["waited"][i]) - np.cumsum(
             per_day(day_of(bed_hour[from_queue]))
         )
-        daily["beds_open"][i] = beds
         _, peaks = _levels_and_peaks(log_hour, log_level, shift_bounds)
         shift_peak[i][:, order] = peaks.reshape(days, len(shifts))
-    return WardResult(
-        daily=_daily_frame(daily, start, first_path),
-        shifts=shift_table(shift_peak, ward.staffing, start, first_path),
-    )
-
-
-def _dates(start: date, days: int) -> np.ndarray:
-    return np.datetime64(start, "D") + np.arange(days)
-
-
-def _daily_frame(daily: dict, start: date, first_path: int) -> pd.DataFrame:
-    paths, days = daily["census"].shape
-    frame = {
-        "path": np.repeat(np.arange(first_path, first_path + paths, dtype=np.int32), days),
-        "date": np.tile(_dates(start, days), paths).astype("datetime64[s]"),
-    }
-    for name in DAILY_COLUMNS:
-        dtype = np.float64 if name == "wait_hours" else np.int32
-        frame[name] = daily[name].ravel().astype(dtype)
-    return pd.DataFrame(frame)
+    return ward_result(start, first_path, daily, beds, shift_peak, ward.staffing)
