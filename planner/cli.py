@@ -66,6 +66,13 @@ jobs_option = click.option(
     default=None,
     help="Worker processes for the simulation (default: all cores). Same numbers either way.",
 )
+scheduler_option = click.option(
+    "--scheduler",
+    metavar="ADDRESS",
+    default=None,
+    help="Send the simulation to a dask.distributed scheduler (e.g. tcp://10.0.0.5:8786; "
+    "needs planner[dask] on every worker). Same numbers as a local run.",
+)
 seed_option = click.option(
     "--seed",
     type=click.IntRange(min=0),
@@ -82,8 +89,8 @@ def output_options(command: Callable[..., Any]) -> Callable[..., Any]:
 
 
 def simulation_options(command: Callable[..., Any]) -> Callable[..., Any]:
-    """--engine and --jobs."""
-    return engine_option(jobs_option(command))
+    """--engine, --jobs and --scheduler."""
+    return engine_option(jobs_option(scheduler_option(command)))
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
@@ -127,14 +134,21 @@ def _jobs(jobs: int | None) -> int:
     return jobs if jobs is not None else max(1, os.cpu_count() or 1)
 
 
-def _run_plan(plan, paths, seed, engine, jobs):
+def _run_plan(plan, paths, seed, engine, jobs, scheduler):
     """Forecast, simulate and summarise ``plan`` with the command's options."""
     from planner.pipeline import run_scenario
 
     if sys.stderr.isatty():
         click.echo(f"{plan.name}: forecasting admissions (fit, backtest, sample paths)", err=True)
     return run_scenario(
-        plan, paths, seed, _progress("simulating"), None, engine or plan.engine, _jobs(jobs)
+        plan,
+        paths,
+        seed,
+        _progress("simulating"),
+        None,
+        engine or plan.engine,
+        _jobs(jobs),
+        scheduler,
     )
 
 
@@ -215,7 +229,7 @@ def backtest(scenario: Path | None, out, overwrite, paths, seed) -> None:
 @output_options
 @simulation_options
 @user_errors
-def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -> None:
+def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, scheduler) -> None:
     """Forecast and simulate the ward: daily.csv and shifts.csv."""
     from planner.outputs import atomic_folder
     from planner.report.files import write_csv
@@ -224,7 +238,7 @@ def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -
     plan, _ = _load(scenario)
     target = _target(out, plan, "simulate")
     with atomic_folder(target, overwrite) as folder:
-        run = _run_plan(plan, paths, seed, engine, jobs)
+        run = _run_plan(plan, paths, seed, engine, jobs, scheduler)
         write_csv(summarise_daily(run.ward), folder / "daily.csv")
         write_csv(summarise_shifts(run.ward), folder / "shifts.csv")
     patients = int(run.forecast.paths.sum())
@@ -239,7 +253,7 @@ def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -
 @output_options
 @simulation_options
 @user_errors
-def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -> None:
+def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, scheduler) -> None:
     """Forecast, simulate and report: weekly.csv, charts, report.html, run.json."""
     from planner.outputs import DEFAULT_ROOT, atomic_folder
     from planner.report.hindcast_report import find_latest_hindcast
@@ -250,7 +264,7 @@ def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -> Non
     plan, _ = _load(scenario)
     target = _target(out, plan, "run")
     with atomic_folder(target, overwrite) as folder:
-        result = _run_plan(plan, paths, seed, engine, jobs)
+        result = _run_plan(plan, paths, seed, engine, jobs, scheduler)
         hindcast = find_latest_hindcast([DEFAULT_ROOT, target.parent], plan)
         write_run_files(
             result, folder, summarise_daily(result.ward), summarise_shifts(result.ward), hindcast
@@ -272,7 +286,9 @@ def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs) -> Non
 @output_options
 @simulation_options
 @user_errors
-def compare(scenarios: tuple[Path, ...], out, overwrite, paths, seed, engine, jobs) -> None:
+def compare(
+    scenarios: tuple[Path, ...], out, overwrite, paths, seed, engine, jobs, scheduler
+) -> None:
     """Compare ward plans (the first is the reference) with common random numbers:
     comparison.csv, costs.csv, a chart and comparison.html."""
     from planner.compare import compare_scenarios
@@ -287,7 +303,9 @@ def compare(scenarios: tuple[Path, ...], out, overwrite, paths, seed, engine, jo
         return _progress(f"simulating {label}")
 
     with atomic_folder(target, overwrite) as folder:
-        result = compare_scenarios(list(scenarios), paths, seed, progress, engine, _jobs(jobs))
+        result = compare_scenarios(
+            list(scenarios), paths, seed, progress, engine, _jobs(jobs), scheduler
+        )
         write_compare_files(result, folder)
     summary = summary_table(result)
     click.echo(summary.to_string(index=False, float_format=lambda v: f"{v:.3f}"))
@@ -322,7 +340,8 @@ BLAS_THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THR
     show_default=True,
     help="Days between past start dates.",
 )
-@simulation_options
+@engine_option
+@jobs_option
 @user_errors
 def hindcast(
     scenario: Path | None, out, overwrite, paths, seed, origins, every_days, engine, jobs

@@ -173,9 +173,11 @@ def simulate_step(
     progress=None,
     engine: str = "auto",
     jobs: int = 1,
+    scheduler: str | None = None,
 ):
     """Simulate the ward for every arrival path; ``progress(done, total)`` is called as
-    chunks of paths finish. The result depends on neither the engine nor ``jobs``."""
+    chunks of paths finish. With ``scheduler`` (a dask.distributed address) the chunks run
+    on that cluster. The result depends on none of the engine, ``jobs`` or ``scheduler``."""
     from planner.simulate.engines import chosen_engine, simulate
 
     name = chosen_engine(engine, scenario.ward)
@@ -192,6 +194,7 @@ def simulate_step(
         jobs=jobs,
         chunk=min(chunk, max(1, -(-arrivals.shape[0] // jobs))),
         progress=progress,
+        scheduler=scheduler,
     )
 
 
@@ -218,9 +221,11 @@ def run_scenario(
     forecast=None,
     engine: str = "auto",
     jobs: int = 1,
+    scheduler: str | None = None,
 ) -> RunResult:
     """Forecast, simulate and summarise one scenario. ``forecast`` reuses sample paths made
-    earlier with the same history and forecast settings (common random numbers)."""
+    earlier with the same history and forecast settings (common random numbers);
+    ``scheduler`` sends the simulation's chunks of paths to a dask.distributed cluster."""
     import time
 
     from planner.report.weekly import weekly_paths
@@ -238,7 +243,7 @@ def run_scenario(
     clock = time.perf_counter()
     inputs = ward_inputs(scenario, history)
     ward = simulate_step(
-        scenario, inputs, forecast.paths, history.start, seed, progress, engine, jobs
+        scenario, inputs, forecast.paths, history.start, seed, progress, engine, jobs, scheduler
     )
     timings["simulate_s"] = time.perf_counter() - clock
     clock = time.perf_counter()

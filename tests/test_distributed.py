@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 import pytest
 
 from planner.errors import PlannerError
@@ -43,3 +44,34 @@ def test_results_in_order_and_equal_to_local(scheduler):
 def test_unreachable_scheduler_is_one_line():
     with pytest.raises(PlannerError, match="--scheduler tcp://127.0.0.1:1: cannot connect"):
         map_chunks("tcp://127.0.0.1:1", draw, [(0, 1)], timeout="1s")
+
+
+def test_run_and_compare_on_the_cluster_equal_local_runs(scheduler, tmp_path):
+    from click.testing import CliRunner
+
+    from planner.cli import cli
+
+    days = 400
+    counts = np.random.default_rng(3).poisson(5.0, days)
+    dates = pd.date_range("2025-01-01", periods=days)
+    lines = ["date,admissions"] + [
+        f"{day.date()},{n}" for day, n in zip(dates, counts, strict=True)
+    ]
+    (tmp_path / "admissions.csv").write_text("\n".join(lines) + "\n")
+    for beds in (8, 10):
+        (tmp_path / f"beds{beds}.toml").write_text(
+            f'name = "beds {beds}"\nhorizon_weeks = 2\npaths = 60\nseed = 5\n'
+            '[history]\nadmissions = "admissions.csv"\n'
+            "[forecast]\nstrategy = 'recursive'\nmax_lag = 7\nannual = false\n"
+            f"[stay]\nmodel = 'lognormal'\nmean = 2.0\nsd = 1.5\n[beds]\nbase = {beds}\n"
+        )
+    plans = [str(tmp_path / "beds8.toml"), str(tmp_path / "beds10.toml")]
+    files = {"run": "weekly.csv", "compare": "comparison.csv"}
+    for command, arguments in (("run", plans[:1]), ("compare", plans)):
+        local, remote = tmp_path / f"{command}-local", tmp_path / f"{command}-remote"
+        first = CliRunner().invoke(cli, [command, *arguments, "--out", str(local), "--jobs", "1"])
+        second = CliRunner().invoke(
+            cli, [command, *arguments, "--out", str(remote), "--scheduler", scheduler]
+        )
+        assert first.exit_code == 0 and second.exit_code == 0, first.output + second.output
+        assert (local / files[command]).read_bytes() == (remote / files[command]).read_bytes()
