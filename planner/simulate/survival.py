@@ -174,7 +174,9 @@ class KaplanMeierStays(StayDistribution):
         index = np.searchsorted(-km.survival, -target, "right")
         in_steps = index < km.times.size
         steps = km.times[np.minimum(index, km.times.size - 1)]
-        with np.errstate(divide="ignore"):
+        # Entries found in the steps do not use the tail; for them the tail may be log(0) or
+        # 0/0 (no mass left past the longest stay), which np.where below discards.
+        with np.errstate(divide="ignore", invalid="ignore"):
             tail = km.largest + self.tail_mean_days * np.log(self._tail_mass / target)
         tail = np.maximum(tail, after)  # only reached for after > largest (memoryless there)
         return np.where(in_steps, steps, tail)
