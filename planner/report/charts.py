@@ -37,6 +37,11 @@ def _date_axis(axes: plt.Axes) -> None:
     axes.grid(alpha=0.3)
 
 
+def _legend_below(axes: plt.Axes) -> None:
+    """Legend in one row under the plot, clear of the data."""
+    axes.legend(loc="upper center", bbox_to_anchor=(0.5, -0.2), fontsize=8, ncol=6, frameon=False)
+
+
 def _fan(axes: plt.Axes, dates, table: pd.DataFrame, prefix: str, label: str) -> None:
     for low, high, alpha in BANDS:
         axes.fill_between(
@@ -61,14 +66,19 @@ def admissions_fan(history: pd.Series, forecast: pd.DataFrame, weeks_of_history:
     axes.plot(dates, forecast["mean"], color=LINE, linewidth=1, linestyle="--", label="mean")
     axes.set_ylabel("emergency admissions per day")
     axes.set_title("Admissions: recent history and forecast")
-    axes.legend(loc="upper left", fontsize=8, ncol=3)
+    _legend_below(axes)
     _date_axis(axes)
     return _png(figure)
 
 
-def census_fan(daily: pd.DataFrame) -> bytes:
-    """Midnight census bands across paths against beds open (daily.csv columns)."""
+def census_fan(daily: pd.DataFrame, recorded: pd.Series | None = None) -> bytes:
+    """Midnight census bands across paths against beds open (daily.csv columns), after the
+    ``recorded`` census of recent weeks when given."""
     figure, axes = plt.subplots(figsize=(10, 4))
+    if recorded is not None and len(recorded):
+        axes.plot(
+            recorded.index, recorded.to_numpy(), color=GREY, linewidth=1, label="recorded census"
+        )
     dates = pd.to_datetime(daily["date"])
     _fan(axes, dates, daily, "census_p", "median census")
     axes.step(
@@ -76,7 +86,7 @@ def census_fan(daily: pd.DataFrame) -> bytes:
     )
     axes.set_ylabel("patients in beds at midnight")
     axes.set_title("Census against beds open")
-    axes.legend(loc="upper left", fontsize=8, ncol=3)
+    _legend_below(axes)
     _date_axis(axes)
     return _png(figure)
 

@@ -32,6 +32,18 @@ TERMINAL_COLUMNS = {
 }
 
 
+RECENT_WEEKS = 8
+
+
+def recent_census(history, weeks: int = RECENT_WEEKS) -> pd.Series | None:
+    """The recorded midnight census of the last ``weeks`` weeks, or None without episodes."""
+    from planner.census import census_series
+
+    if history.episodes is None:
+        return None
+    return census_series(history.episodes, last_day=history.last_day).iloc[-7 * weeks :]
+
+
 def terminal_table(weekly: pd.DataFrame) -> str:
     """The weekly table as aligned text for the terminal."""
     shown = weekly[list(TERMINAL_COLUMNS)].rename(columns=TERMINAL_COLUMNS).copy()
@@ -175,7 +187,7 @@ def write_run_files(
     write_csv(forecast, folder / "forecast.csv")
     pictures = {
         "admissions.png": charts.admissions_fan(run.history.admissions, forecast),
-        "census.png": charts.census_fan(daily),
+        "census.png": charts.census_fan(daily, recent_census(run.history)),
         "shortfall.png": charts.shortfall_probabilities(weekly),
         "nurses.png": charts.nurses_against_roster(shifts),
     }
