@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import multiprocessing
 from datetime import date
 
 import numpy as np
@@ -70,6 +71,17 @@ def test_two_jobs_give_the_same_result_as_one(engine, streams):
     assert two.daily["path"].is_monotonic_increasing
 
 
+def test_many_chunks_shared_by_two_processes_give_the_same_result():
+    seen = []
+    several = run(jobs=2, chunk=2, progress=lambda done, total: seen.append((done, total)))
+    assert_equal_results(several, run())
+    assert len(seen) == len(chunk_bounds(9, 2, 2)) == 6
+    assert [done for done, _ in seen] == sorted(done for done, _ in seen)
+    assert seen[-1] == (9, 9)
+    for name in ("census", "wait_hours", "nurses_required", "shortfall"):
+        assert getattr(several, name).dtype == getattr(run(), name).dtype
+
+
 def test_chunks_keep_first_path():
     shifted = run(jobs=2, first_path=100)
     assert shifted.daily["path"].min() == 100
@@ -134,3 +146,9 @@ def test_chunk_starts_are_deterministic_and_cover_the_paths():
 def test_bad_choices_raise(keywords, message):
     with pytest.raises(PlannerError, match=message):
         run(**keywords)
+
+
+def test_two_jobs_without_fork_give_the_same_result(monkeypatch):
+    # Platforms that cannot fork: the workers' results are sent back instead of shared.
+    monkeypatch.setattr(multiprocessing, "get_all_start_methods", lambda: ["spawn"])
+    assert_equal_results(run(jobs=2, chunk=3), run())

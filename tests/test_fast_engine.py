@@ -19,7 +19,7 @@ from hypothesis import strategies as st
 
 from planner.errors import PlannerError
 from planner.simulate.arrivals import arrival_times
-from planner.simulate.fast import arrival_hours, simulate_ward_fast
+from planner.simulate.fast import arrival_hours, by_slot, simpy_clock, simulate_ward_fast
 from planner.simulate.queueing import erlang_b, erlang_c
 from planner.simulate.settings import BedChange, Shift, StaffingSettings, WardSettings
 from planner.simulate.stays import Exponential, Gamma, Lognormal, Weibull
@@ -282,3 +282,15 @@ def test_bad_inputs_raise_as_in_simpy_model():
     with pytest.raises(PlannerError, match="policy"):
         simulate_ward_fast(np.array([[1, 2]]), START, WardSettings(policy="queue"),
                            Exponential.from_mean(3.0), NONE_IN, UNIFORM, 0)  # fmt: skip
+
+
+def test_slot_layout_and_simpy_clock_equal_plain_numpy():
+    # Reference: numpy's own transpose, np.diff and np.cumsum (general-purpose library).
+    rng = np.random.default_rng(5)
+    rows = np.sort(rng.random((700, 37)) * 24.0 * 21, axis=1)
+    arrival = by_slot(rows)
+    np.testing.assert_array_equal(arrival, rows.T)
+    np.testing.assert_array_equal(by_slot(rows, 24.0), rows.T * 24.0)
+    expected = np.cumsum(np.diff(rows.T, axis=0, prepend=0.0), axis=0)
+    assert simpy_clock(arrival).tobytes() == expected.tobytes()
+    assert simpy_clock(np.zeros((0, 4))).shape == (0, 4)

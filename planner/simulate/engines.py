@@ -5,16 +5,22 @@ Engines: "simpy" (:func:`planner.simulate.ward.simulate_ward`, one SimPy run per
 fast engine whenever it covers the ward set-up). With the default random streams both engines
 give the same result for the same seed, so the choice changes the run time, not the numbers.
 
-``jobs`` > 1 splits the paths into consecutive chunks run in worker processes, or, given a
-``scheduler``, on a dask.distributed cluster (:mod:`planner.simulate.distributed`); each chunk
-passes its ``first_path``, so every path draws its own streams and the result, the chunks'
-arrays joined along the path axis, is identical to ``jobs = 1``.
+``jobs`` > 1 splits the paths into consecutive chunks run in ``jobs`` processes (this one and
+``jobs - 1`` forked workers, started once per run), or, given a ``scheduler``, on a
+dask.distributed cluster (:mod:`planner.simulate.distributed`); each chunk passes its
+``first_path``, so every path draws its own streams and the result, the chunks' arrays joined
+along the path axis, is identical to ``jobs = 1``. The processes write their chunks'
+measures straight into result arrays in shared memory (an anonymous shared mapping made before
+the workers are forked), so no result is pickled and nothing is joined afterwards.
 """
 
 from __future__ import annotations
 
+import mmap
+import multiprocessing
 from collections.abc import Callable
-from concurrent.futures import ProcessPoolExecutor, as_completed
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import replace
 from datetime import date
 from typing import TYPE_CHECKING
 
@@ -22,7 +28,7 @@ import numpy as np
 
 from planner.errors import PlannerError
 from planner.simulate.fast import simulate_ward_fast
-from planner.simulate.result import WardResult
+from planner.simulate.result import PATH_DAILY, PATH_SHIFTS, WardResult
 from planner.simulate.settings import WardSettings
 from planner.simulate.ward import POLICIES, simulate_ward
 
@@ -66,6 +72,29 @@ def _run(engine, arrivals, start, ward, stays, elapsed, profile, seed, first_pat
     )  # fmt: skip
 
 
+def _shared_zeros(shape: tuple[int, ...], dtype) -> np.ndarray:
+    """A zeroed array in memory shared with the processes forked after it (an anonymous
+    shared mapping)."""
+    count = int(np.prod(shape))
+    buffer = mmap.mmap(-1, max(count * np.dtype(dtype).itemsize, 1))
+    return np.frombuffer(buffer, dtype=dtype, count=count).reshape(shape)
+
+
+#: Output arrays of the run in progress, seen by the workers forked while it runs.
+_OUTPUT: dict[str, np.ndarray] = {}
+
+
+def _store(result: WardResult, lo: int, output: dict[str, np.ndarray]) -> None:
+    """Copy the per-path measures of the chunk starting at path ``lo`` into ``output``."""
+    for name, values in output.items():
+        values[lo : lo + result.paths] = getattr(result, name)
+
+
+def _run_into_output(lo: int, arguments: tuple) -> None:
+    """In a worker: run one chunk and write its measures into the shared ``_OUTPUT``."""
+    _store(_run(*arguments), lo, _OUTPUT)
+
+
 def chunk_bounds(paths: int, jobs: int, chunk: int | None) -> list[tuple[int, int]]:
     """Consecutive (first, end) paths of each chunk: ``jobs`` chunks of nearly equal size, or,
     given ``chunk``, chunks of at most ``chunk`` paths, as many as a multiple of ``jobs`` so
@@ -98,7 +127,7 @@ def simulate(
     scheduler: str | None = None,
 ) -> WardResult:
     """Simulate the ward for every path of daily ``arrivals`` (paths x days, patients) with
-    ``engine``, in ``jobs`` worker processes. Arguments as for
+    ``engine``, in ``jobs`` processes. Arguments as for
     :func:`planner.simulate.ward.simulate_ward`; ``streams`` ("spawned" or "counter") is
     passed to the fast engine (the SimPy engine always uses "spawned"). Paths run in chunks
     (:func:`chunk_bounds`: at most ``chunk`` paths each, default an even split over the
@@ -132,8 +161,43 @@ def simulate(
         for lo, _ in pieces:
             finished(lo, _run(*arguments[lo]))
     else:
-        with ProcessPoolExecutor(max_workers=min(int(jobs), len(pieces))) as pool:
-            futures = {pool.submit(_run, *arguments[lo]): lo for lo, _ in pieces}
-            for future in as_completed(futures):
-                finished(futures[future], future.result())
+        shifts = len(ward.staffing.shifts)
+        return _in_processes(pieces, arguments, min(int(jobs), len(pieces)), finished, shifts)
     return WardResult.concat([parts[lo] for lo, _ in pieces])
+
+
+def _in_processes(pieces, arguments, jobs, finished, shifts) -> WardResult:
+    """Chunk i runs in this process when i is a multiple of ``jobs``, the others in
+    ``jobs - 1`` forked workers (the chunks are of nearly equal size, so the processes finish
+    together); every process writes its chunks' measures into one set of shared arrays."""
+    global _OUTPUT
+    paths, days = pieces[-1][1], arguments[0][1].shape[1]
+    output = {name: _shared_zeros((paths, days), np.float64 if name == "wait_hours" else np.int32)
+              for name in PATH_DAILY}  # fmt: skip
+    output |= {name: _shared_zeros((paths, days, shifts), np.int32) for name in PATH_SHIFTS}
+    here = [lo for i, (lo, _) in enumerate(pieces) if i % jobs == 0]
+    results = {}
+    _OUTPUT = output
+    try:
+        forked = "fork" in multiprocessing.get_all_start_methods()
+        context = multiprocessing.get_context("fork" if forked else None)
+        with ProcessPoolExecutor(max_workers=jobs - 1, mp_context=context) as pool:
+            futures = {
+                lo: pool.submit(_run_into_output, lo, arguments[lo])
+                if forked
+                else pool.submit(_run, *arguments[lo])  # no fork: results come back pickled
+                for lo, _ in pieces
+                if lo not in here
+            }
+            for lo in here:
+                results[lo] = _run(*arguments[lo])
+                _store(results[lo], lo, output)
+                finished(lo, results[lo])
+            for lo, future in futures.items():
+                part = future.result()
+                if part is not None:
+                    _store(part, lo, output)
+                finished(lo, part)
+    finally:
+        _OUTPUT = {}
+    return replace(results[0], **output)

@@ -37,6 +37,8 @@ STREAMS = ("spawned", "counter")
 BLOCK_PATHS = 4096
 #: Buckets of the table that turns a uniform into an hour of the day (a power of two).
 _HOUR_BUCKETS = 4096
+#: Paths per band when turning (paths x slots) arrays into (slots x paths) ones.
+_BAND = 256
 
 
 def hours_of_day(uniforms: np.ndarray, profile: np.ndarray) -> np.ndarray:
@@ -92,6 +94,33 @@ def arrival_hours(uniforms: np.ndarray, counts: np.ndarray, profile: np.ndarray)
     return rows[0]
 
 
+def by_slot(rows: np.ndarray, scale: float | None = None) -> np.ndarray:
+    """(slots x paths) C-ordered copy of (paths x slots) ``rows`` (times ``scale`` if given),
+    copied in bands of ``_BAND`` paths so that both sides of each band stay in cache."""
+    out = np.empty(rows.shape[::-1])
+    for lo in range(0, rows.shape[0], _BAND):
+        band = rows[lo : lo + _BAND].T
+        if scale is None:
+            out[:, lo : lo + _BAND] = band
+        else:
+            np.multiply(band, scale, out=out[:, lo : lo + _BAND])
+    return out
+
+
+def simpy_clock(arrival: np.ndarray) -> np.ndarray:
+    """The SimPy clock's reading of each arrival (slots x paths, hours): the running sum down
+    each column of the gaps between arrivals, the first gap from 0, added in order (as
+    ``np.cumsum(np.diff(arrival, axis=0, prepend=0.0), axis=0)``, one row at a time, which
+    is much faster for this layout)."""
+    clock = np.empty_like(arrival)
+    if arrival.shape[0]:
+        clock[0] = arrival[0]
+        np.subtract(arrival[1:], arrival[:-1], out=clock[1:])
+        for k in range(1, arrival.shape[0]):
+            np.add(clock[k - 1], clock[k], out=clock[k])
+    return clock
+
+
 def _shift_starts(ward: WardSettings) -> tuple[np.ndarray, np.ndarray]:
     """Shift start hours in increasing order, and the staffing position of each."""
     shifts = ward.staffing.shifts
@@ -106,11 +135,11 @@ def _simulate_block(counts, ward, beds, stays, elapsed, profile, seed, first_pat
     order = np.argsort(-totals, kind="stable")  # most arrivals first (see allocate_beds)
     draws = draw_block(streams, seed, first_path, totals, order, stays, elapsed)
     rows = arrival_rows(draws.hour_uniforms, draws.within_uniforms, counts[order], profile)
-    arrival = np.ascontiguousarray(rows.T)
-    stay = np.multiply(draws.stay_days.T, 24.0, order="C")
+    arrival = by_slot(rows)
+    stay = by_slot(draws.stay_days, 24.0)
     remaining = 24.0 * draws.remaining_days
     # The SimPy clock reads each arrival as the previous reading plus the gap between the two.
-    clock = np.cumsum(np.diff(arrival, axis=0, prepend=0.0), axis=0)
+    clock = simpy_clock(arrival)
     times = allocate_beds(
         arrival, clock, stay, totals[order], remaining[order], beds, wait=ward.policy == "wait"
     )

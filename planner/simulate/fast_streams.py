@@ -136,9 +136,10 @@ class _StateWords(ISeedSequence):
         self.words = words
 
     def generate_state(self, n_words, dtype=np.uint32):
-        if np.dtype(dtype) != np.uint64 or n_words > self.words.size:
+        if dtype is not np.uint64 and np.dtype(dtype) != np.uint64 or n_words > self.words.size:
             raise ValueError("only the words computed for PCG64 are available")
-        return self.words[:n_words].copy()
+        # The bit generator only reads the words while seeding itself: no copy needed.
+        return self.words if n_words == self.words.size else self.words[:n_words].copy()
 
 
 def _generator(words: np.ndarray) -> np.random.Generator:
