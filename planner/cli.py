@@ -193,7 +193,7 @@ def forecast(scenario: Path | None, out, overwrite, paths, seed) -> None:
     summary = result.summary
     click.echo(
         f"AR order {summary.order} ({summary.criterion.upper()}), strategy "
-        f"{summary.strategy}; {len(table)} days from {history.start.date()}"
+        f"{summary.strategy}; {len(table)} days from {history.first_day.date()}"
     )
     click.echo(f"wrote {target}/forecast.csv and admissions.png")
 

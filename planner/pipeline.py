@@ -42,11 +42,22 @@ class WardHistory:
     def last_day(self) -> pd.Timestamp:
         return self.admissions.index[-1]
 
+    @property
+    def first_day(self) -> pd.Timestamp:
+        """The day after the history: the ward is simulated from here, as the records leave
+        it, even when the report starts later (``start``)."""
+        return self.last_day + pd.Timedelta(days=1)
+
+    @property
+    def gap_days(self) -> int:
+        """Days simulated before ``start``, not reported."""
+        return (self.start - self.first_day).days
+
     def inpatients_elapsed(self) -> np.ndarray:
         """Elapsed stays (days) of the patients on the ward at 00:00 of the start day."""
         if self.episodes is None:
             return np.zeros(0)
-        return inpatients_at(self.episodes, self.start)
+        return inpatients_at(self.episodes, self.first_day)
 
     def stays(self) -> tuple[np.ndarray | None, np.ndarray | None]:
         """Stays (days) as known at the start and whether each has ended: stays still in
@@ -56,7 +67,7 @@ class WardHistory:
 
         if self.episodes is None:
             return None, None
-        durations, observed = stays_at(self.episodes, self.start)
+        durations, observed = stays_at(self.episodes, self.first_day)
         return np.maximum(durations, MINIMUM_RECORDED_STAY_DAYS), observed
 
 
@@ -124,12 +135,19 @@ class Streams:
 
 
 def forecast_step(scenario: Scenario, history: WardHistory, paths: int, seed: int):
-    """Sample paths of daily admissions over the scenario's horizon."""
+    """Sample paths of daily admissions from the day after the history to the end of the
+    scenario's horizon (days before a later ``start`` included: the ward is simulated
+    through them)."""
     from planner.forecast import forecast_admissions
 
     rng = np.random.default_rng(Streams.from_seed(seed).forecast)
     return forecast_admissions(
-        history.admissions, scenario.forecast, scenario.horizon_days, paths, rng, history.start
+        history.admissions,
+        scenario.forecast,
+        history.gap_days + scenario.horizon_days,
+        paths,
+        rng,
+        history.first_day,
     )
 
 
@@ -243,7 +261,7 @@ def run_scenario(
     clock = time.perf_counter()
     inputs = ward_inputs(scenario, history)
     ward = simulate_step(
-        scenario, inputs, forecast.paths, history.start, seed, progress, engine, jobs, scheduler
+        scenario, inputs, forecast.paths, history.first_day, seed, progress, engine, jobs, scheduler
     )
     timings["simulate_s"] = time.perf_counter() - clock
     clock = time.perf_counter()

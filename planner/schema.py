@@ -49,7 +49,14 @@ TOP = (
         "here override it (tables merge key by key; arrays of tables are replaced whole).",
     ),
     Key("horizon_weeks", "int", 13, "Length of the forecast.", "weeks", minimum=1),
-    Key("start", "date", None, "First forecast day (default: the day after the history ends)."),
+    Key(
+        "start",
+        "date",
+        None,
+        "First reported day (default: the day after the history ends). A later start "
+        "forecasts and simulates the days in between from the ward as the records leave it "
+        "and reports from start.",
+    ),
     Key("paths", "int", 1000, "Number of simulated sample paths.", "paths", minimum=1),
     Key(
         "seed",

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import json
 from dataclasses import replace
+from datetime import date
 
 import numpy as np
 import pandas as pd
@@ -181,3 +182,17 @@ def test_engines_and_jobs_give_identical_files(ward_folder, tmp_path):
         outputs.append(out)
     for name in ("weekly.csv", "daily.csv", "shifts.csv", "forecast.csv"):
         assert (outputs[0] / name).read_bytes() == (outputs[1] / name).read_bytes(), name
+
+
+def test_a_later_start_simulates_the_days_before_it(ward_folder):
+    # The ward is simulated from the day after the history; starting the report two weeks
+    # later must give exactly weeks 3.. of a run that reports from the first day.
+    early = replace(load_scenario(plan(ward_folder, "early", 9, "wait", 40)), horizon_weeks=4)
+    late = replace(early, horizon_weeks=2, start=date(2026, 2, 19))
+    whole, later = run_scenario(early), run_scenario(late)
+    assert later.history.start == whole.history.start + pd.Timedelta(days=14)
+    for field in ("bed_shortfall", "patients_affected", "peak_census", "short_shifts"):
+        np.testing.assert_array_equal(
+            getattr(later.weekly, field), getattr(whole.weekly, field)[:, 2:], err_msg=field
+        )
+    assert str(later.weekly.week_start[0].date()) == "2026-02-19"

@@ -124,6 +124,24 @@ NO_HINDCAST = (
 )
 
 
+def _inpatients(run) -> str:
+    if run.history.episodes is None:
+        return (
+            "None known (no episode file): the simulated ward starts empty, so the first "
+            "weeks understate the census."
+        )
+    text = (
+        f"{len(run.inputs.inpatients_elapsed)} patients on the ward at 00:00 on "
+        f"{run.history.first_day.date()}, remaining stays drawn given the time already spent"
+    )
+    if run.history.gap_days:
+        text += (
+            f"; the ward is simulated from then, {run.history.gap_days} days before the "
+            f"reported weeks start"
+        )
+    return text
+
+
 def assumptions(run, hindcast_line: str | None = None) -> list[tuple[str, str]]:
     """Key assumptions of the run, as (term, description) pairs for the report;
     ``hindcast_line`` quotes the latest hindcast of this setup, if any."""
@@ -158,12 +176,7 @@ def assumptions(run, hindcast_line: str | None = None) -> list[tuple[str, str]]:
         )
     items += [
         ("Length of stay", run.inputs.stays.describe()),
-        (
-            "Current inpatients",
-            f"{len(run.inputs.inpatients_elapsed)} patients on the ward at "
-            f"00:00 on {run.history.start.date()}, remaining stays drawn "
-            f"given the time already spent",
-        ),
+        ("Current inpatients", _inpatients(run)),
         *_ward_plan(run.scenario),
         ("Hindcast", hindcast_line or NO_HINDCAST),
     ]
