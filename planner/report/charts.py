@@ -158,23 +158,29 @@ def nurses_against_roster(shifts: pd.DataFrame) -> bytes:
 
 
 def comparison_chart(comparison: pd.DataFrame) -> bytes:
-    """p_bed_shortfall by week for each scenario, with 95% error bars."""
-    figure, axes = plt.subplots(figsize=(10, 4))
-    for number, (name, rows) in enumerate(comparison.groupby("scenario", sort=False)):
-        weeks = np.arange(1, len(rows) + 1) + 0.08 * number
-        axes.errorbar(
-            weeks,
-            rows["p_bed_shortfall"],
-            yerr=1.96 * rows["p_bed_shortfall_se"],
-            marker="o",
-            markersize=3,
-            capsize=2,
-            label=name,
-        )
-    axes.set_ylim(0, 1)
-    axes.set_xlabel("forecast week")
-    axes.set_ylabel("probability of no free bed at some moment")
-    axes.set_title("Bed shortfall by scenario")
-    axes.legend(fontsize=8)
-    axes.grid(alpha=0.3)
+    """By week and scenario: the probability of a bed shortfall and of a shift short of
+    nurses, with 95% error bars (1.96 standard errors)."""
+    figure, panels = plt.subplots(1, 2, figsize=(12, 4), sharey=True)
+    measures = (
+        ("p_bed_shortfall", "no free bed at some moment"),
+        ("p_staff_shortfall", "at least one shift short of nurses"),
+    )
+    for axes, (column, title) in zip(panels, measures, strict=True):
+        for number, (name, rows) in enumerate(comparison.groupby("scenario", sort=False)):
+            weeks = np.arange(1, len(rows) + 1) + 0.08 * number
+            axes.errorbar(
+                weeks,
+                rows[column],
+                yerr=1.96 * rows[f"{column}_se"],
+                marker="o",
+                markersize=3,
+                capsize=2,
+                label=name,
+            )
+        axes.set_ylim(0, 1)
+        axes.set_xlabel("forecast week")
+        axes.set_title(f"P({title})", fontsize=10)
+        axes.grid(alpha=0.3)
+    panels[0].set_ylabel("probability")
+    panels[0].legend(fontsize=8, loc="upper left")
     return _png(figure)

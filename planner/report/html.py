@@ -22,7 +22,8 @@ h1 { font-size: 1.6em; margin-bottom: 0.2em; } h2 { font-size: 1.2em; margin-top
 table { border-collapse: collapse; font-size: 0.85em; }
 th, td { border-bottom: 1px solid #ddd; padding: 0.25em 0.6em; text-align: right; }
 th { background: #eef2f7; }
-td:first-child, th:first-child { text-align: left; white-space: nowrap; }
+td:first-child, th:first-child { text-align: left; }
+td { white-space: nowrap; }
 img { max-width: 100%; } dt { font-weight: 600; } dd { margin: 0 0 0.4em 1.5em; }
 """
 
