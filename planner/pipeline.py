@@ -23,6 +23,9 @@ from planner.scenario import Scenario, load_scenario
 #: Recorded stays shorter than this (same-minute admission and discharge) are counted as
 #: this long, so every stay is positive: one minute, in days.
 MINIMUM_RECORDED_STAY_DAYS = 1.0 / (24 * 60)
+#: Episode records may end this much before the daily admissions (a quiet last day) before
+#: the current inpatients are taken to be unknown.
+EPISODES_LAG = pd.Timedelta(days=3)
 #: Paths per chunk of simulation work: small for the SimPy engine (the progress bar moves),
 #: large for the fast engine (it works across the paths of a chunk at once).
 SIMPY_CHUNK = 100
@@ -91,6 +94,12 @@ def load_history(scenario: Scenario) -> WardHistory:
         raise PlannerError(
             f"{scenario.episodes_file}: has records on {late}, after the admissions history "
             f"ends ({admissions.index[-1].date()})"
+        )
+    if episodes is not None and episodes_end(episodes) < first_free - EPISODES_LAG:
+        raise PlannerError(
+            f"{scenario.episodes_file}: records end on {episodes_end(episodes).date()}, "
+            f"before the admissions history ({admissions.index[-1].date()}); the patients on "
+            f"the ward at the start would be missed: give episodes up to the same day"
         )
     forecast_days = (start - first_free).days + scenario.horizon_days
     source = scenario.admissions_file or scenario.episodes_file

@@ -268,3 +268,21 @@ def test_error_inside_the_run_leaves_no_folder(tmp_path):
     result = CliRunner().invoke(cli, ["run", str(given), "--out", str(tmp_path / "out" / "r")])
     assert_one_line_error(result, "holiday_country: unknown country code 'XX'")
     assert not (tmp_path / "out").exists()
+
+
+def test_episodes_ending_before_the_daily_history_are_refused(tmp_path):
+    days = pd.date_range("2024-01-01", periods=400)
+    (tmp_path / "daily.csv").write_text(
+        "date,admissions\n" + "".join(f"{d.date()},4\n" for d in days)
+    )
+    (tmp_path / "episodes.csv").write_text(
+        "admitted_at,discharged_at\n2024-01-02 10:00,2024-01-05 10:00\n2024-06-01 09:00,\n"
+    )
+    (tmp_path / "plan.toml").write_text(
+        '[history]\nadmissions = "daily.csv"\nepisodes = "episodes.csv"\n'
+        "[forecast]\nstrategy = 'recursive'\nmax_lag = 7\n"
+    )
+    result = CliRunner().invoke(cli, ["check", str(tmp_path / "plan.toml")])
+    assert result.exit_code == 2
+    assert "episodes.csv: records end on 2024-06-01, before the admissions history" in result.output
+    assert len(result.output.strip().splitlines()) == 1
