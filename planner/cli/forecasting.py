@@ -1,0 +1,81 @@
+"""Commands that check a scenario and forecast admissions: check, forecast, backtest."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from planner.cli.base import (
+    cli,
+    load_plan,
+    output_options,
+    output_target,
+    scenario_argument,
+    user_errors,
+)
+
+
+@cli.command()
+@scenario_argument
+@user_errors
+def check(scenario: Path | None) -> None:
+    """Validate a scenario file and its input files without running anything."""
+    from planner.pipeline import check_scenario
+
+    for line in check_scenario(scenario):
+        click.echo(line)
+
+
+@cli.command()
+@scenario_argument
+@output_options
+@user_errors
+def forecast(scenario: Path | None, out, overwrite, paths, seed) -> None:
+    """Forecast daily admissions as sample paths: forecast.csv and a fan chart."""
+    from planner.outputs import atomic_folder
+    from planner.pipeline import forecast_step
+    from planner.report.charts import admissions_fan
+    from planner.report.files import write_csv
+
+    plan, history = load_plan(scenario)
+    target = output_target(out, plan, "forecast")
+    with atomic_folder(target, overwrite) as folder:
+        result = forecast_step(
+            plan, history, paths or plan.paths, plan.seed if seed is None else seed
+        )
+        table = result.table()
+        write_csv(table, folder / "forecast.csv")
+        (folder / "admissions.png").write_bytes(admissions_fan(history.admissions, table))
+    summary = result.summary
+    click.echo(
+        f"AR order {summary.order} ({summary.criterion.upper()}), strategy "
+        f"{summary.strategy}; {len(table)} days from {history.first_day.date()}"
+    )
+    click.echo(f"wrote {target}/forecast.csv and admissions.png")
+
+
+@cli.command()
+@scenario_argument
+@output_options
+@user_errors
+def backtest(scenario: Path | None, out, overwrite, paths, seed) -> None:
+    """Rolling-origin backtest of the forecast strategies: backtest.csv."""
+    from planner.outputs import atomic_folder
+    from planner.pipeline import backtest_step
+    from planner.report.files import write_csv
+
+    plan, history = load_plan(scenario)
+    target = output_target(out, plan, "backtest")
+    with atomic_folder(target, overwrite) as folder:
+        result = backtest_step(
+            plan,
+            history,
+            paths or plan.forecast.backtest_paths,
+            plan.seed if seed is None else seed,
+        )
+        table = result.table.copy()
+        table["horizon_week"] = table["horizon_week"].map(lambda w: "all" if w == 0 else w)
+        write_csv(table, folder / "backtest.csv")
+    click.echo(table.to_string(index=False, float_format=lambda v: f"{v:.3f}"))
+    click.echo(f"wrote {target}/backtest.csv")

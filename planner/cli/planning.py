@@ -1,0 +1,165 @@
+"""Commands that simulate ward plans: simulate, run, compare, hindcast."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from planner.cli.base import (
+    cli,
+    engine_option,
+    jobs_option,
+    load_plan,
+    output_options,
+    output_target,
+    progress_bar,
+    run_plan,
+    scenario_argument,
+    simulation_options,
+    user_errors,
+    worker_count,
+)
+
+
+@cli.command()
+@scenario_argument
+@output_options
+@simulation_options
+@user_errors
+def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, scheduler) -> None:
+    """Forecast and simulate the ward: daily.csv and shifts.csv."""
+    from planner.outputs import atomic_folder
+    from planner.report.files import write_csv
+    from planner.simulate import summarise_daily, summarise_shifts
+
+    plan, _ = load_plan(scenario)
+    target = output_target(out, plan, "simulate")
+    with atomic_folder(target, overwrite) as folder:
+        run = run_plan(plan, paths, seed, engine, jobs, scheduler)
+        write_csv(summarise_daily(run.ward), folder / "daily.csv")
+        write_csv(summarise_shifts(run.ward), folder / "shifts.csv")
+    patients = int(run.forecast.paths.sum())
+    click.echo(
+        f"simulated {run.paths} paths, {patients} patients in {run.timings['simulate_s']:.1f} s"
+    )
+    click.echo(f"wrote {target}/daily.csv and shifts.csv")
+
+
+@cli.command()
+@scenario_argument
+@output_options
+@simulation_options
+@user_errors
+def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, scheduler) -> None:
+    """Forecast, simulate and report: weekly.csv, charts, report.html, run.json."""
+    from planner.outputs import DEFAULT_ROOT, atomic_folder
+    from planner.report.hindcast_report import find_latest_hindcast
+    from planner.report.run_report import headline, terminal_table, write_run_files
+    from planner.report.weekly import weekly_table
+    from planner.simulate import summarise_daily, summarise_shifts
+
+    plan, _ = load_plan(scenario)
+    target = output_target(out, plan, "run")
+    with atomic_folder(target, overwrite) as folder:
+        result = run_plan(plan, paths, seed, engine, jobs, scheduler)
+        hindcast = find_latest_hindcast([DEFAULT_ROOT, target.parent], plan)
+        write_run_files(
+            result, folder, summarise_daily(result.ward), summarise_shifts(result.ward), hindcast
+        )
+    click.echo(f"{plan.name}: {result.paths} paths from {result.history.start.date()}")
+    click.echo(terminal_table(weekly_table(result.weekly)))
+    click.echo(headline(result))
+    click.echo(
+        "Decision support only: staffing and capacity decisions follow local policy, "
+        "safe-staffing review and professional judgement."
+    )
+    click.echo(f"wrote {target}/report.html")
+
+
+@cli.command()
+@click.argument(
+    "scenarios", nargs=-1, required=True, type=click.Path(dir_okay=False, path_type=Path)
+)
+@output_options
+@simulation_options
+@user_errors
+def compare(
+    scenarios: tuple[Path, ...], out, overwrite, paths, seed, engine, jobs, scheduler
+) -> None:
+    """Compare ward plans (the first is the reference) with common random numbers:
+    comparison.csv, costs.csv, a chart and comparison.html."""
+    from planner.compare import compare_scenarios
+    from planner.outputs import atomic_folder, default_folder
+    from planner.report.compare_report import summary_table, write_compare_files
+    from planner.scenario import load_scenario
+
+    first = load_scenario(scenarios[0])
+    target = out if out is not None else default_folder(first.name, "compare")
+
+    def progress(label: str):
+        return progress_bar(f"simulating {label}")
+
+    with atomic_folder(target, overwrite) as folder:
+        result = compare_scenarios(
+            list(scenarios), paths, seed, progress, engine, worker_count(jobs), scheduler
+        )
+        write_compare_files(result, folder)
+    summary = summary_table(result)
+    click.echo(summary.to_string(index=False, float_format=lambda v: f"{v:.3f}"))
+    if result.costs is not None:
+        click.echo(result.costs.to_string(index=False, float_format=lambda v: f"{v:,.1f}"))
+    click.echo(f"wrote {target}/comparison.html")
+
+
+#: Hindcast defaults: past start dates over the last 26 weeks, paths per start date.
+HINDCAST_WEEKS = 26
+HINDCAST_PATHS = 300
+
+
+@cli.command()
+@scenario_argument
+@output_options
+@click.option(
+    "--origins",
+    type=click.IntRange(min=1),
+    default=None,
+    help="Number of past start dates (default: as many as fit in 26 weeks).",
+)
+@click.option(
+    "--every",
+    "every_days",
+    type=click.IntRange(min=1),
+    default=14,
+    show_default=True,
+    help="Days between past start dates.",
+)
+@engine_option
+@jobs_option
+@user_errors
+def hindcast(
+    scenario: Path | None, out, overwrite, paths, seed, origins, every_days, engine, jobs
+) -> None:
+    """Start the setup at past dates with only what was known then and compare its census
+    forecast with the census that happened: hindcast.csv, charts, hindcast.html."""
+    from planner.hindcast import hindcast as run_hindcast
+    from planner.outputs import atomic_folder
+    from planner.report.hindcast_report import headline, write_hindcast_files
+
+    plan, _ = load_plan(scenario)
+    target = output_target(out, plan, "hindcast")
+    weeks = HINDCAST_WEEKS if origins is None else -(-origins * every_days // 7)
+    with atomic_folder(target, overwrite) as folder:
+        result = run_hindcast(
+            plan,
+            None,
+            every_days,
+            weeks,
+            paths or HINDCAST_PATHS,
+            seed,
+            worker_count(jobs),
+            engine or plan.engine,
+        )
+        write_hindcast_files(result, plan, folder)
+    click.echo(headline(result))
+    click.echo(f"wrote {target}/hindcast.html")
