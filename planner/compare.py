@@ -144,7 +144,7 @@ def cost_table(runs: tuple[RunResult, ...]) -> pd.DataFrame | None:
             costs.diverted_patient * weekly.diverted.sum(axis=1).mean()
             + costs.waiting_hour * weekly.wait_hours.sum(axis=1).mean()
         )
-        avoided, avoided_se = mean_se((base_affected - affected)[:, None])
+        avoided, avoided_se = paired_difference(affected[:, None], base_affected[:, None])
         rows.append(
             {
                 "scenario": run.scenario.name,

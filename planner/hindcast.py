@@ -50,7 +50,7 @@ from planner.pipeline import (
     simulate_step,
     ward_inputs,
 )
-from planner.report.files import _plain, file_sha256
+from planner.report.files import file_sha256, json_ready
 from planner.scenario import Scenario
 
 #: Threshold columns -> beds below beds open.
@@ -88,7 +88,7 @@ def scenario_key(scenario: Scenario) -> str:
     hindcast, plus the contents of its history files: equal keys = the same setup and data."""
     resolved = {k: v for k, v in scenario.resolved.items() if k not in NOT_IN_KEY}
     files = [p for p in (scenario.admissions_file, scenario.episodes_file) if p]
-    record = {"scenario": _plain(resolved), "files": [file_sha256(p) for p in files]}
+    record = {"scenario": json_ready(resolved), "files": [file_sha256(p) for p in files]}
     text = json.dumps(record, sort_keys=True, default=str)
     return hashlib.sha256(text.encode()).hexdigest()[:16]
 

@@ -55,6 +55,7 @@ def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, schedu
     """Forecast, simulate and report: weekly.csv, charts, report.html, run.json."""
     from planner.outputs import DEFAULT_ROOT, atomic_folder
     from planner.report.hindcast_report import find_latest_hindcast
+    from planner.report.html import CAUTION
     from planner.report.run_report import headline, terminal_table, write_run_files
     from planner.report.weekly import weekly_table
     from planner.simulate import summarise_daily, summarise_shifts
@@ -70,10 +71,7 @@ def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, schedu
     click.echo(f"{plan.name}: {result.paths} paths from {result.history.start.date()}")
     click.echo(terminal_table(weekly_table(result.weekly)))
     click.echo(headline(result))
-    click.echo(
-        "Decision support only: staffing and capacity decisions follow local policy, "
-        "safe-staffing review and professional judgement."
-    )
+    click.echo(CAUTION)
     click.echo(f"wrote {target}/report.html")
 
 

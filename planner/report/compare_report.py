@@ -6,6 +6,7 @@ from pathlib import Path
 
 import pandas as pd
 
+from planner.compare import paired_difference
 from planner.report import charts, html
 from planner.report.files import run_record, write_csv, write_json
 from planner.report.run_report import HEADLINE_WEEKS
@@ -23,7 +24,9 @@ def summary_table(comparison) -> pd.DataFrame:
         early, early_se = any_shortfall(weekly, weeks)
         whole, _ = any_shortfall(weekly, weekly.bed_shortfall.shape[1])
         affected = weekly.patients_affected.sum(axis=1)
-        change = affected - base.patients_affected.sum(axis=1)
+        change, change_se = paired_difference(
+            base.patients_affected.sum(axis=1)[:, None], affected[:, None]
+        )
         rows.append(
             {
                 "scenario": run.scenario.name,
@@ -31,8 +34,8 @@ def summary_table(comparison) -> pd.DataFrame:
                 "se": early_se,
                 "p_bed_shortfall_any_week": whole,
                 "expected_patients_affected": affected.mean(),
-                "change_vs_first": change.mean(),
-                "change_se": change.std(ddof=1) / len(change) ** 0.5 if len(change) > 1 else 0.0,
+                "change_vs_first": change[0],
+                "change_se": change_se[0],
                 "p_staff_shortfall_any_week": weekly.staff_shortfall.any(axis=1).mean(),
                 "expected_short_shifts": weekly.short_shifts.sum(axis=1).mean(),
             }

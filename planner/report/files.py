@@ -38,12 +38,12 @@ def file_sha256(path: Path) -> str:
     return digest.hexdigest()
 
 
-def _plain(value: Any) -> Any:
+def json_ready(value: Any) -> Any:
     """Scenario values made JSON-friendly (dates as ISO text)."""
     if isinstance(value, dict):
-        return {key: _plain(item) for key, item in value.items()}
+        return {key: json_ready(item) for key, item in value.items()}
     if isinstance(value, list | tuple):
-        return [_plain(item) for item in value]
+        return [json_ready(item) for item in value]
     if isinstance(value, date | datetime):
         return value.isoformat()
     return value
@@ -73,13 +73,13 @@ def run_record(
         "command": command,
         "argv": sys.argv[1:],
         "scenario_file": str(scenario_file),
-        "scenario": _plain(resolved),
+        "scenario": json_ready(resolved),
         "inputs": {str(path): file_sha256(path) for path in inputs},
         "seed": seed,
         "paths": paths,
         "versions": package_versions(),
         "created": datetime.now().isoformat(timespec="seconds"),
-        **_plain(extra),
+        **json_ready(extra),
     }
 
 

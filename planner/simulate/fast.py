@@ -26,7 +26,7 @@ from planner.simulate.fast_records import Pieces, daily_records
 from planner.simulate.fast_streams import draw_block
 from planner.simulate.result import PATH_DAILY, WardResult, ward_result
 from planner.simulate.settings import WardSettings
-from planner.simulate.ward import _check_inputs, beds_open_by_day
+from planner.simulate.ward import beds_open_by_day, check_inputs
 
 if TYPE_CHECKING:
     from planner.simulate.stays import StayDistribution
@@ -170,7 +170,7 @@ def simulate_ward_fast(
     arrivals = np.asarray(arrivals)
     elapsed = np.asarray(inpatients_elapsed, dtype=float)
     profile = np.asarray(hour_profile, dtype=float)
-    _check_inputs(arrivals, elapsed, profile, ward)
+    check_inputs(arrivals, elapsed, profile, ward)
     if streams not in STREAMS:
         raise PlannerError(f"streams must be one of {STREAMS}, got {streams!r}")
     counts = arrivals.astype(np.int64)

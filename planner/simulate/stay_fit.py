@@ -24,13 +24,13 @@ from planner.simulate.stays import (
     Exponential,
     Gamma,
     Lognormal,
+    ParametricStay,
     StayDistribution,
     Weibull,
-    _Parametric,
-    _positive,
-    _stays_array,
+    positive_number,
+    stays_array,
 )
-from planner.simulate.survival import KaplanMeierStays, _check
+from planner.simulate.survival import KaplanMeierStays, checked_stays
 
 
 @dataclass(frozen=True)
@@ -43,7 +43,7 @@ class StayFit:
     n: int
 
 
-def _fit_family(name: str, x: np.ndarray) -> tuple[_Parametric, int]:
+def _fit_family(name: str, x: np.ndarray) -> tuple[ParametricStay, int]:
     """MLE with location fixed at 0 (scipy.stats ``fit(floc=0)``); returns (fit, k)."""
     if name == "exponential":
         return Exponential(float(x.mean())), 1
@@ -71,7 +71,7 @@ def fit_stays(
         raise PlannerError(f"model must be one of {', '.join(MODELS)}; got {model!r}")
     if observed is not None:
         return fit_censored_stays(stays, observed, model)
-    x = _stays_array(stays)
+    x = stays_array(stays)
     if np.ptp(x) == 0:
         raise PlannerError("stays: all lengths of stay are equal; cannot fit a distribution")
     fits, aic = {}, {}
@@ -88,7 +88,7 @@ def fit_stays(
     return StayFit(chosen, aic, int(x.size))
 
 
-def _censored_log_likelihood(family: _Parametric, x: np.ndarray, ended: np.ndarray) -> float:
+def _censored_log_likelihood(family: ParametricStay, x: np.ndarray, ended: np.ndarray) -> float:
     """Sum of log f over ended stays and log S over censored stays (days), written out per
     family (the same values as scipy.stats ``logpdf`` / ``logsf``, much faster)."""
     if isinstance(family, Lognormal):
@@ -111,7 +111,7 @@ def _censored_log_likelihood(family: _Parametric, x: np.ndarray, ended: np.ndarr
     return float(np.sum(dist.logpdf(x[ended])) + np.sum(dist.logsf(x[~ended])))
 
 
-def _build(name: str, theta: np.ndarray) -> _Parametric:
+def _build(name: str, theta: np.ndarray) -> ParametricStay:
     """A family from unconstrained parameters (log scales; mu for the lognormal)."""
     if name == "lognormal":
         return Lognormal(float(theta[0]), float(np.exp(theta[1])))
@@ -119,13 +119,13 @@ def _build(name: str, theta: np.ndarray) -> _Parametric:
     return family(float(np.exp(theta[0])), float(np.exp(theta[1])))
 
 
-def _start(fitted: _Parametric) -> np.ndarray:
+def _start(fitted: ParametricStay) -> np.ndarray:
     if isinstance(fitted, Lognormal):
         return np.array([fitted.mu, math.log(fitted.sigma)])
     return np.log([fitted.shape, fitted.scale])
 
 
-def _fit_censored_family(name: str, x: np.ndarray, ended: np.ndarray) -> tuple[_Parametric, int]:
+def _fit_censored_family(name: str, x: np.ndarray, ended: np.ndarray) -> tuple[ParametricStay, int]:
     """Censored MLE (days); starts from the uncensored fit of the ended stays."""
     if name == "exponential":
         # Closed form: total time on the ward over the number of ended stays.
@@ -158,7 +158,7 @@ def fit_censored_stays(durations: np.ndarray, observed: np.ndarray, model: str =
     """
     if model not in MODELS:
         raise PlannerError(f"model must be one of {', '.join(MODELS)}; got {model!r}")
-    x, ended = _check(durations, observed)
+    x, ended = checked_stays(durations, observed)
     if np.ptp(x) == 0:
         raise PlannerError("stays: all lengths of stay are equal; cannot fit a distribution")
     fits, aic = {}, {}
@@ -176,14 +176,14 @@ def fit_censored_stays(durations: np.ndarray, observed: np.ndarray, model: str =
 
 
 def _from_mean_sd(model: str, mean: float, sd: float | None) -> StayDistribution:
-    mean = _positive(mean, "stay.mean")
+    mean = positive_number(mean, "stay.mean")
     if model == "exponential":
         if sd is not None and not math.isclose(sd, mean, rel_tol=1e-9):
             raise PlannerError("stay.sd: an exponential stay has sd equal to its mean; omit sd")
         return Exponential.from_mean(mean)
     if sd is None:
         raise PlannerError(f"stay.sd is required with stay.mean for model {model!r}")
-    sd = _positive(sd, "stay.sd")
+    sd = positive_number(sd, "stay.sd")
     family = {"gamma": Gamma, "weibull": Weibull}.get(model, Lognormal)
     return family.from_mean_sd(mean, sd)
 
@@ -210,7 +210,7 @@ def stay_distribution(
         raise PlannerError("stays: no episodes to fit the length of stay to; give stay.mean")
     else:
         distribution = fit_stays(stays, settings.model, observed).distribution
-    scale = _positive(settings.scale, "stay.scale")
+    scale = positive_number(settings.scale, "stay.scale")
     if not math.isfinite(settings.change_days):
         raise PlannerError(f"stay.change_days must be a finite number, got {settings.change_days}")
     new_mean = (distribution.mean + settings.change_days) * scale

@@ -32,7 +32,7 @@ BEST_CANDIDATES = ("lognormal", "gamma", "weibull")
 MODELS = ("empirical", "best", *PARAMETRIC_MODELS)
 
 
-def _positive(value: float, name: str) -> float:
+def positive_number(value: float, name: str) -> float:
     if not (isinstance(value, int | float | np.floating | np.integer) and math.isfinite(value)):
         raise PlannerError(f"{name} must be a finite number, got {value!r}")
     if value <= 0:
@@ -89,7 +89,7 @@ class StayDistribution(ABC):
         return f"{self.name}, mean {self.mean:.1f} d, sd {self.sd:.1f} d"
 
 
-class _Parametric(StayDistribution):
+class ParametricStay(StayDistribution):
     """A family backed by a frozen ``scipy.stats`` distribution (location fixed at 0)."""
 
     @property
@@ -119,7 +119,7 @@ class _Parametric(StayDistribution):
 
 
 @dataclass(frozen=True)
-class Lognormal(_Parametric):
+class Lognormal(ParametricStay):
     """log S ~ Normal(``mu``, ``sigma``); S in days."""
 
     mu: float
@@ -129,13 +129,13 @@ class Lognormal(_Parametric):
     def __post_init__(self) -> None:
         if not math.isfinite(self.mu):
             raise PlannerError(f"mu must be a finite number, got {self.mu!r}")
-        _positive(self.sigma, "sigma")
+        positive_number(self.sigma, "sigma")
 
     @classmethod
     def from_mean_sd(cls, mean: float, sd: float) -> Lognormal:
         """The lognormal with this mean and sd (days): sigma^2 = log(1 + (sd/mean)^2),
         mu = log(mean) - sigma^2 / 2."""
-        mean, sd = _positive(mean, "mean"), _positive(sd, "sd")
+        mean, sd = positive_number(mean, "mean"), positive_number(sd, "sd")
         sigma2 = math.log1p((sd / mean) ** 2)
         return cls(math.log(mean) - sigma2 / 2, math.sqrt(sigma2))
 
@@ -156,11 +156,11 @@ class Lognormal(_Parametric):
         return np.exp(self.mu + self.sigma * z_t) - e
 
     def rescaled(self, factor: float) -> Lognormal:
-        return Lognormal(self.mu + math.log(_positive(factor, "factor")), self.sigma)
+        return Lognormal(self.mu + math.log(positive_number(factor, "factor")), self.sigma)
 
 
 @dataclass(frozen=True)
-class Gamma(_Parametric):
+class Gamma(ParametricStay):
     """Gamma with ``shape`` k and ``scale`` theta (days): mean k theta, variance k theta^2."""
 
     shape: float
@@ -168,13 +168,13 @@ class Gamma(_Parametric):
     name: ClassVar[str] = "gamma"
 
     def __post_init__(self) -> None:
-        _positive(self.shape, "shape")
-        _positive(self.scale, "scale")
+        positive_number(self.shape, "shape")
+        positive_number(self.scale, "scale")
 
     @classmethod
     def from_mean_sd(cls, mean: float, sd: float) -> Gamma:
         """The gamma with this mean and sd (days): k = (mean/sd)^2, theta = sd^2/mean."""
-        mean, sd = _positive(mean, "mean"), _positive(sd, "sd")
+        mean, sd = positive_number(mean, "mean"), positive_number(sd, "sd")
         return cls((mean / sd) ** 2, sd**2 / mean)
 
     @property
@@ -196,7 +196,7 @@ class Gamma(_Parametric):
         return r
 
     def rescaled(self, factor: float) -> Gamma:
-        return Gamma(self.shape, self.scale * _positive(factor, "factor"))
+        return Gamma(self.shape, self.scale * positive_number(factor, "factor"))
 
 
 def _weibull_shape_for_cv(cv: float) -> float:
@@ -214,7 +214,7 @@ def _weibull_shape_for_cv(cv: float) -> float:
 
 
 @dataclass(frozen=True)
-class Weibull(_Parametric):
+class Weibull(ParametricStay):
     """Weibull with ``shape`` k and ``scale`` lambda (days): P(S > t) = exp(-(t/lambda)^k)."""
 
     shape: float
@@ -222,14 +222,14 @@ class Weibull(_Parametric):
     name: ClassVar[str] = "weibull"
 
     def __post_init__(self) -> None:
-        _positive(self.shape, "shape")
-        _positive(self.scale, "scale")
+        positive_number(self.shape, "shape")
+        positive_number(self.scale, "scale")
 
     @classmethod
     def from_mean_sd(cls, mean: float, sd: float) -> Weibull:
         """The Weibull with this mean and sd (days); shape solved from the CV, then
         lambda = mean / Gamma(1 + 1/k)."""
-        mean, sd = _positive(mean, "mean"), _positive(sd, "sd")
+        mean, sd = positive_number(mean, "mean"), positive_number(sd, "sd")
         k = _weibull_shape_for_cv(sd / mean)
         return cls(k, mean / math.gamma(1 + 1 / k))
 
@@ -246,22 +246,22 @@ class Weibull(_Parametric):
         return self.scale * ((e / self.scale) ** self.shape - np.log(u)) ** (1 / self.shape) - e
 
     def rescaled(self, factor: float) -> Weibull:
-        return Weibull(self.shape, self.scale * _positive(factor, "factor"))
+        return Weibull(self.shape, self.scale * positive_number(factor, "factor"))
 
 
 @dataclass(frozen=True)
-class Exponential(_Parametric):
+class Exponential(ParametricStay):
     """Exponential with mean ``mean_days``: memoryless, the remaining stay has the same law."""
 
     mean_days: float
     name: ClassVar[str] = "exponential"
 
     def __post_init__(self) -> None:
-        _positive(self.mean_days, "mean")
+        positive_number(self.mean_days, "mean")
 
     @classmethod
     def from_mean(cls, mean: float) -> Exponential:
-        return cls(_positive(mean, "mean"))
+        return cls(positive_number(mean, "mean"))
 
     @property
     def scipy(self) -> stats.rv_continuous:
@@ -274,10 +274,10 @@ class Exponential(_Parametric):
         return -self.mean_days * np.log(u)
 
     def rescaled(self, factor: float) -> Exponential:
-        return Exponential(self.mean_days * _positive(factor, "factor"))
+        return Exponential(self.mean_days * positive_number(factor, "factor"))
 
 
-def _stays_array(stays: np.ndarray, name: str = "stays") -> np.ndarray:
+def stays_array(stays: np.ndarray, name: str = "stays") -> np.ndarray:
     x = np.asarray(stays, dtype=float).ravel()
     if x.size == 0:
         raise PlannerError(f"{name}: no episode stays given")
@@ -302,7 +302,7 @@ class Empirical(StayDistribution):
     name: ClassVar[str] = "empirical"
 
     def __post_init__(self) -> None:
-        x = np.sort(_stays_array(self.stays))
+        x = np.sort(stays_array(self.stays))
         x.setflags(write=False)
         object.__setattr__(self, "stays", x)
         threshold = np.quantile(x, 0.9)
@@ -336,7 +336,7 @@ class Empirical(StayDistribution):
         return np.maximum(r, MINIMUM_STAY_DAYS)
 
     def rescaled(self, factor: float) -> Empirical:
-        return Empirical(self.stays * _positive(factor, "factor"))
+        return Empirical(self.stays * positive_number(factor, "factor"))
 
     def describe(self) -> str:
         return f"empirical ({self.stays.size} episodes), mean {self.mean:.1f} d, sd {self.sd:.1f} d"

@@ -30,8 +30,8 @@ from planner.simulate.stays import (
     MINIMUM_STAY_DAYS,
     StayDistribution,
     _elapsed_days,
-    _positive,
     _uniform_open_closed,
+    positive_number,
 )
 
 HOURS_PER_DAY = 24.0
@@ -57,7 +57,7 @@ def stays_at(episodes: pd.DataFrame, moment: pd.Timestamp) -> tuple[np.ndarray, 
     return hours / HOURS_PER_DAY, ended[known]
 
 
-def _check(durations, observed) -> tuple[np.ndarray, np.ndarray]:
+def checked_stays(durations, observed) -> tuple[np.ndarray, np.ndarray]:
     x = np.asarray(durations, dtype=float).ravel()
     e = np.asarray(observed).ravel()
     if x.size == 0:
@@ -91,7 +91,7 @@ class KaplanMeier:
 
 def kaplan_meier(durations, observed) -> KaplanMeier:
     """The Kaplan-Meier estimate of P(stay > t) from stays (days) and ended flags."""
-    x, e = _check(durations, observed)
+    x, e = checked_stays(durations, observed)
     order = np.argsort(x, kind="stable")
     x, e = x[order], e[order]
     times, first = np.unique(x, return_index=True)
@@ -133,7 +133,7 @@ class KaplanMeierStays(StayDistribution):
     name: ClassVar[str] = "Kaplan-Meier"
 
     def __post_init__(self) -> None:
-        x, e = _check(self.durations, self.observed)
+        x, e = checked_stays(self.durations, self.observed)
         estimate = kaplan_meier(x, e)
         object.__setattr__(self, "estimate", estimate)
         object.__setattr__(self, "tail_mean_days", _tail_mean(estimate, x, e))
@@ -195,7 +195,7 @@ class KaplanMeierStays(StayDistribution):
         return np.maximum(np.where(beyond, r_tail, r_steps), MINIMUM_STAY_DAYS)
 
     def rescaled(self, factor: float) -> KaplanMeierStays:
-        return KaplanMeierStays(self.durations * _positive(factor, "factor"), self.observed)
+        return KaplanMeierStays(self.durations * positive_number(factor, "factor"), self.observed)
 
     def describe(self) -> str:
         n, censored = self.observed.size, int(np.count_nonzero(~self.observed))

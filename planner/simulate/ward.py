@@ -152,7 +152,7 @@ def _levels_and_peaks(times, levels, boundaries):
     return levels[index], np.maximum(within, levels[index[1:]])
 
 
-def _check_inputs(arrivals, inpatients_elapsed, hour_profile, ward):
+def check_inputs(arrivals, inpatients_elapsed, hour_profile, ward):
     if arrivals.ndim != 2 or arrivals.shape[1] == 0:
         raise PlannerError("arrivals must be a (paths x days) array with at least one day")
     if np.any(arrivals < 0) or not np.all(arrivals == np.round(arrivals)):
@@ -192,7 +192,7 @@ def simulate_ward(
     arrivals = np.asarray(arrivals)
     elapsed = np.asarray(inpatients_elapsed, dtype=float)
     profile = np.asarray(hour_profile, dtype=float)
-    _check_inputs(arrivals, elapsed, profile, ward)
+    check_inputs(arrivals, elapsed, profile, ward)
     arrivals = arrivals.astype(np.int64)
     paths, days = arrivals.shape
     horizon = 24.0 * days
