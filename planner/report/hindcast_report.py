@@ -197,14 +197,19 @@ def hindcast_page(result, pictures: dict[str, bytes]) -> str:
 def find_latest_hindcast(roots: list[Path], scenario) -> str | None:
     """The sentence of the newest hindcast saved for this setup in any folder directly
     under one of ``roots`` (e.g. outputs/), or None."""
+    from planner.hindcast import scenario_key
+
+    key = scenario_key(scenario)
     found = []
     for root in dict.fromkeys(Path(r) for r in roots):
         for sidecar in sorted(root.glob(f"*/{SIDECAR}")) if root.is_dir() else []:
-            line = latest_hindcast_line(sidecar.parent, scenario)
-            if line is not None:
-                created = json.loads(sidecar.read_text()).get("created", "")
-                found.append((created, line))
-    return max(found)[1] if found else None
+            record = json.loads(sidecar.read_text())
+            if record.get("scenario_key") == key and (sidecar.parent / "hindcast.csv").is_file():
+                found.append((record.get("created", ""), sidecar.parent, record))
+    if not found:
+        return None
+    _, folder, record = max(found, key=lambda item: item[0])
+    return _hindcast_line(folder, record)
 
 
 SUMMARY_NOTE = (
@@ -237,6 +242,17 @@ def summary_view(summary: pd.DataFrame) -> pd.DataFrame:
     )
 
 
+def _hindcast_line(folder: Path, record: dict) -> str:
+    """The sentence for the hindcast in ``folder`` described by its sidecar ``record``."""
+    rows = pd.read_csv(Path(folder) / "hindcast.csv")
+    held = np.mean((rows["census"] >= rows["model_lo80"]) & (rows["census"] <= rows["model_hi80"]))
+    return (
+        f"Over the last {record['weeks']} weeks ({len(record['origins'])} past start dates, "
+        f"hindcast of {record['created'][:10]}), the 80% census band of this setup held "
+        f"{held:.0%} of days."
+    )
+
+
 def latest_hindcast_line(folder: Path, scenario) -> str | None:
     """The run report's sentence on the hindcast saved in ``folder`` (or ``folder/hindcast``)
     for this setup, e.g. "Over the last 26 weeks, the 80% census band of this setup held 78%
@@ -250,13 +266,5 @@ def latest_hindcast_line(folder: Path, scenario) -> str | None:
         record = json.loads(sidecar.read_text())
         if record.get("scenario_key") != scenario_key(scenario):
             continue
-        rows = pd.read_csv(table)
-        held = np.mean(
-            (rows["census"] >= rows["model_lo80"]) & (rows["census"] <= rows["model_hi80"])
-        )
-        return (
-            f"Over the last {record['weeks']} weeks ({len(record['origins'])} past start "
-            f"dates, hindcast of "
-            f"{record['created'][:10]}), the 80% census band of this setup held {held:.0%} of days."
-        )
+        return _hindcast_line(place, record)
     return None
