@@ -86,8 +86,7 @@ def run_all(
     _check_alike(scenarios)
     paths = scenarios[0].paths if paths is None else paths
     seed = scenarios[0].seed if seed is None else seed
-    for scenario in scenarios:
-        load_history(scenario)  # reports bad input before any long work
+    histories = [load_history(scenario) for scenario in scenarios]  # bad input first
     if scheduler is not None:
         from planner.simulate.distributed import map_chunks
 
@@ -95,10 +94,12 @@ def run_all(
         return tuple(map_chunks(scheduler, _run_one, arguments))
     forecasts: dict[tuple, object] = {}
     runs = []
-    for number, scenario in enumerate(scenarios, start=1):
+    for number, (scenario, history) in enumerate(zip(scenarios, histories, strict=True), 1):
         step = None if progress is None else progress(f"{number}/{len(scenarios)}")
         known = forecasts.get(_forecast_key(scenario))
-        run = run_scenario(scenario, paths, seed, step, known, engine or scenario.engine, jobs)
+        run = run_scenario(
+            scenario, paths, seed, step, known, engine or scenario.engine, jobs, None, history
+        )
         forecasts.setdefault(_forecast_key(scenario), run.forecast)
         runs.append(run)
     return tuple(runs)

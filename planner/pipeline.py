@@ -249,10 +249,12 @@ def run_scenario(
     engine: str = "auto",
     jobs: int = 1,
     scheduler: str | None = None,
+    history: WardHistory | None = None,
 ) -> RunResult:
     """Forecast, simulate and summarise one scenario. ``forecast`` reuses sample paths made
     earlier with the same history and forecast settings (common random numbers);
-    ``scheduler`` sends the simulation's chunks of paths to a dask.distributed cluster."""
+    ``scheduler`` sends the simulation's chunks of paths to a dask.distributed cluster;
+    ``history`` is the scenario's history when it has been read already."""
     import time
 
     from planner.report.weekly import weekly_paths
@@ -261,7 +263,7 @@ def run_scenario(
     seed = scenario.seed if seed is None else seed
     timings: dict[str, float] = {}
     clock = time.perf_counter()
-    history = load_history(scenario)
+    history = load_history(scenario) if history is None else history
     timings["read_history_s"] = time.perf_counter() - clock
     clock = time.perf_counter()
     if forecast is None:

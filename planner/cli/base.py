@@ -122,8 +122,9 @@ def worker_count(jobs: int | None) -> int:
     return jobs if jobs is not None else max(1, os.cpu_count() or 1)
 
 
-def run_plan(plan, paths, seed, engine, jobs, scheduler):
-    """Forecast, simulate and summarise ``plan`` with the command's options."""
+def run_plan(plan, history, paths, seed, engine, jobs, scheduler):
+    """Forecast, simulate and summarise ``plan`` (its ``history`` read already) with the
+    command's options."""
     from planner.pipeline import run_scenario
 
     if sys.stderr.isatty():
@@ -137,6 +138,7 @@ def run_plan(plan, paths, seed, engine, jobs, scheduler):
         engine or plan.engine,
         worker_count(jobs),
         scheduler,
+        history,
     )
 
 

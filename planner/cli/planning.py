@@ -33,10 +33,10 @@ def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, s
     from planner.report.files import write_csv
     from planner.simulate import summarise_daily, summarise_shifts
 
-    plan, _ = load_plan(scenario)
+    plan, history = load_plan(scenario)
     target = output_target(out, plan, "simulate")
     with atomic_folder(target, overwrite) as folder:
-        run = run_plan(plan, paths, seed, engine, jobs, scheduler)
+        run = run_plan(plan, history, paths, seed, engine, jobs, scheduler)
         write_csv(summarise_daily(run.ward), folder / "daily.csv")
         write_csv(summarise_shifts(run.ward), folder / "shifts.csv")
     patients = int(run.forecast.paths.sum())
@@ -60,10 +60,10 @@ def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, schedu
     from planner.report.weekly import weekly_table
     from planner.simulate import summarise_daily, summarise_shifts
 
-    plan, _ = load_plan(scenario)
+    plan, history = load_plan(scenario)
     target = output_target(out, plan, "run")
     with atomic_folder(target, overwrite) as folder:
-        result = run_plan(plan, paths, seed, engine, jobs, scheduler)
+        result = run_plan(plan, history, paths, seed, engine, jobs, scheduler)
         hindcast = find_latest_hindcast([DEFAULT_ROOT, target.parent], plan)
         write_run_files(
             result, folder, summarise_daily(result.ward), summarise_shifts(result.ward), hindcast
