@@ -10,7 +10,7 @@ from hypothesis import strategies as st
 from scipy import stats
 
 from planner.errors import PlannerError
-from planner.simulate.arrivals import arrival_times, arrival_times_paths, hour_profile
+from planner.simulate.arrivals import arrival_times, hour_profile
 
 UNIFORM = np.full(24, 1 / 24)
 
@@ -87,18 +87,6 @@ def test_hour_histogram_matches_a_data_profile_on_many_draws():
     used = profile > 0
     # Source: Pearson's chi-square goodness-of-fit test (scipy.stats.chisquare).
     assert stats.chisquare(observed[used], profile[used] * counts.sum()).pvalue > 1e-3
-
-
-def test_many_paths_give_the_same_times_as_one_path_at_a_time():
-    counts = np.array([[2, 4, 0], [0, 0, 0], [5, 1, 3]])
-    seeds = np.random.SeedSequence(42).spawn(3)
-    times, path = arrival_times_paths(
-        [np.random.default_rng(s) for s in seeds], counts, _evening_profile()
-    )
-    np.testing.assert_array_equal(path, np.repeat([0, 1, 2], counts.sum(axis=1)))
-    for i, s in enumerate(seeds):
-        alone = arrival_times(np.random.default_rng(s), counts[i], _evening_profile())
-        np.testing.assert_array_equal(times[path == i], alone)
 
 
 @pytest.mark.parametrize(

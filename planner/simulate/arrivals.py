@@ -7,8 +7,6 @@ of past admissions by hour, 24 values) and the time within the hour uniformly.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
-
 import numpy as np
 import pandas as pd
 
@@ -68,23 +66,3 @@ def arrival_times(rng: np.random.Generator, counts: np.ndarray, profile: np.ndar
     # Never let rounding carry an arrival into the next day: d*24 + 23 + within < d*24 + 24.
     times = np.minimum(day * HOURS_PER_DAY + hour + within, np.nextafter((day + 1) * 24.0, 0))
     return np.sort(times)
-
-
-def arrival_times_paths(
-    rngs: Sequence[np.random.Generator], counts: np.ndarray, profile: np.ndarray
-) -> tuple[np.ndarray, np.ndarray]:
-    """Arrival times for many paths at once, as flat arrays ``(times, path)``.
-
-    ``counts``: admissions per day, shape (paths, days); ``rngs``: one Generator per path
-    (e.g. from ``SeedSequence.spawn``), so each path gets the same times as
-    ``arrival_times(rngs[i], counts[i], profile)`` however the paths are chunked. ``times``
-    (hours since 00:00 of day 0) are sorted within each path; ``path`` gives each time's path
-    index, in increasing order.
-    """
-    c = np.asarray(counts)
-    if c.ndim != 2 or c.shape[0] != len(rngs):
-        raise PlannerError("counts: need shape (paths, days) with one generator per path")
-    per_path = [arrival_times(rng, row, profile) for rng, row in zip(rngs, c, strict=True)]
-    sizes = [t.size for t in per_path]
-    times = np.concatenate(per_path) if per_path else np.empty(0)
-    return times, np.repeat(np.arange(len(per_path)), sizes)
