@@ -56,24 +56,16 @@ def coverage_chart(summary: pd.DataFrame) -> bytes:
     weeks = summary[summary["horizon_week"] > 0]
     for percent, style in ((50, ":"), (80, "-"), (95, "--")):
         axes.axhline(percent / 100, color="black", linewidth=0.6, linestyle=style)
-        axes.plot(
-            weeks["horizon_week"],
-            weeks[f"model_coverage_{percent}"],
-            style,
-            marker="o",
-            color=charts.LINE,
-            markersize=3,
-            label=f"model {percent}%",
-        )
-        axes.plot(
-            weeks["horizon_week"],
-            weeks[f"naive_coverage_{percent}"],
-            style,
-            marker="s",
-            color=charts.GREY,
-            markersize=3,
-            label=f"naive {percent}%",
-        )
+        for who, marker, colour in (("model", "o", charts.LINE), ("naive", "s", charts.GREY)):
+            axes.plot(
+                weeks["horizon_week"],
+                weeks[f"{who}_coverage_{percent}"],
+                style,
+                marker=marker,
+                color=colour,
+                markersize=3,
+                label=f"{who} {percent}%",
+            )
     axes.set_ylim(0, 1.02)
     axes.set_xlabel("horizon week")
     axes.set_ylabel("share of days inside the interval")
