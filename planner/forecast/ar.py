@@ -15,7 +15,7 @@ after ``max_lag``, as statsmodels ``ar_select_order`` does, then the chosen orde
 all its usable rows. (``ar_select_order`` also tries ``p = 0``; we do not, so the two agree
 whenever its choice is at least 1.)
 
-Two engines give the same numbers: ``"statsmodels"`` (``sm.OLS``, for the reported fit) and
+Two engines give the same numbers: ``"statsmodels"`` (statsmodels ``OLS``, for the reported fit) and
 ``"numpy"`` (``numpy.linalg.lstsq``, for the many fits inside the backtest and the bootstrap).
 """
 
@@ -25,7 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-import statsmodels.api as sm
+from statsmodels.regression.linear_model import OLS
 
 from planner.errors import PlannerError
 from planner.forecast.lags import lag_matrix
@@ -115,7 +115,7 @@ def fit_ar(
             f"at horizon {horizon}"
         )
     if engine == "statsmodels":
-        result = sm.OLS(y, X).fit()
+        result = OLS(y, X).fit()
         coefficients, residuals = np.asarray(result.params), np.asarray(result.resid)
     elif engine == "numpy":
         coefficients = np.linalg.lstsq(X, y, rcond=None)[0]
