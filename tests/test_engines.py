@@ -1,16 +1,21 @@
-"""Engine choice and parallel chunks: the result never depends on either."""
+"""Engine choice, parallel chunks and the session's workers: the result never depends on them."""
 
 from __future__ import annotations
 
 import multiprocessing
+import os
+import signal
+import tempfile
+import time
 from datetime import date
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 import pytest
 
 from planner.errors import PlannerError
-from planner.simulate import distributed
+from planner.simulate import distributed, workers
 from planner.simulate.engines import (
     ENGINES,
     chosen_engine,
@@ -152,3 +157,62 @@ def test_two_jobs_without_fork_give_the_same_result(monkeypatch):
     # Platforms that cannot fork: the workers' results are sent back instead of shared.
     monkeypatch.setattr(multiprocessing, "get_all_start_methods", lambda: ["spawn"])
     assert_equal_results(run(jobs=2, chunk=3), run())
+
+
+needs_fork = pytest.mark.skipif(not workers.can_fork(), reason="needs forked workers")
+
+
+def leftovers() -> set[str]:
+    folders = {workers.SHARED_FOLDER, tempfile.gettempdir()}
+    return {
+        str(path) for folder in folders if Path(folder).is_dir()
+        for path in Path(folder).glob("planner-*")
+    }  # fmt: skip
+
+
+@needs_fork
+def test_shared_arrays_are_zeroed_written_by_a_worker_and_outlive_the_file():
+    shared = workers.SharedArrays({"census": ((4, 3), np.int32), "hours": ((4,), np.float64)})
+    assert Path(shared.path).exists()
+    assert shared.arrays["census"].shape == (4, 3) and shared.arrays["census"].dtype == np.int32
+    assert not shared.arrays["census"].any() and not shared.arrays["hours"].any()
+    values = {"census": np.array([[1, 2, 3], [4, 5, 6]]), "hours": np.array([0.5, 1.5])}
+    workers.submit(1, workers.write_shared, shared.path, shared.layout, 2, values).result()
+    shared.remove()
+    shared.remove()  # idempotent
+    assert not Path(shared.path).exists()
+    np.testing.assert_array_equal(shared.arrays["census"][2:], values["census"])
+    np.testing.assert_array_equal(shared.arrays["hours"], [0, 0, 0.5, 1.5])
+
+
+@needs_fork
+def test_shared_file_falls_back_to_the_temporary_folder(monkeypatch, tmp_path):
+    monkeypatch.setattr(workers, "SHARED_FOLDER", str(tmp_path / "missing"))
+    shared = workers.SharedArrays({"census": ((2, 2), np.int32)})
+    try:
+        assert Path(shared.path).parent == Path(tempfile.gettempdir())
+    finally:
+        shared.remove()
+
+
+@needs_fork
+def test_repeated_runs_reuse_the_workers_and_leave_no_file():
+    before = leftovers()
+    first = run(jobs=2)
+    pool = workers.pool(1)
+    second = run(jobs=2)
+    assert workers.pool(1) is pool
+    assert_equal_results(first, run())
+    assert_equal_results(second, run())
+    assert leftovers() <= before
+
+
+@needs_fork
+def test_a_killed_worker_is_replaced_and_the_numbers_do_not_change():
+    expected = run()
+    run(jobs=2)
+    for process in list(workers.pool(1)._processes.values()):
+        os.kill(process.pid, signal.SIGKILL)
+    time.sleep(0.2)
+    assert_equal_results(run(jobs=2), expected)
+    assert_equal_results(run(jobs=2), expected)

@@ -6,20 +6,18 @@ fast engine whenever it covers the ward set-up). With the default random streams
 give the same result for the same seed, so the choice changes the run time, not the numbers.
 
 ``jobs`` > 1 splits the paths into consecutive chunks run in ``jobs`` processes (this one and
-``jobs - 1`` forked workers, started once per run), or, given a ``scheduler``, on a
-dask.distributed cluster (:mod:`planner.simulate.distributed`); each chunk passes its
-``first_path``, so every path draws its own streams and the result, the chunks' arrays joined
-along the path axis, is identical to ``jobs = 1``. The processes write their chunks'
-measures straight into result arrays in shared memory (an anonymous shared mapping made before
-the workers are forked), so no result is pickled and nothing is joined afterwards.
+``jobs - 1`` workers, started on first use and kept for the session: see
+:mod:`planner.simulate.workers`), or, given a ``scheduler``, on a dask.distributed cluster
+(:mod:`planner.simulate.distributed`); each chunk passes its ``first_path``, so every path
+draws its own streams and the result, the chunks' arrays joined along the path axis, is
+identical to ``jobs = 1``. The processes write their chunks' measures straight into result
+arrays in shared memory, so no result is pickled and nothing is joined afterwards.
 """
 
 from __future__ import annotations
 
-import mmap
-import multiprocessing
 from collections.abc import Callable
-from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures.process import BrokenProcessPool
 from dataclasses import replace
 from datetime import date
 from typing import TYPE_CHECKING
@@ -27,6 +25,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from planner.errors import PlannerError
+from planner.simulate import workers
 from planner.simulate.fast import simulate_ward_fast
 from planner.simulate.result import PATH_DAILY, PATH_SHIFTS, WardResult
 from planner.simulate.settings import WardSettings
@@ -72,27 +71,16 @@ def _run(engine, arrivals, start, ward, stays, elapsed, profile, seed, first_pat
     )  # fmt: skip
 
 
-def _shared_zeros(shape: tuple[int, ...], dtype) -> np.ndarray:
-    """A zeroed array in memory shared with the processes forked after it (an anonymous
-    shared mapping)."""
-    count = int(np.prod(shape))
-    buffer = mmap.mmap(-1, max(count * np.dtype(dtype).itemsize, 1))
-    return np.frombuffer(buffer, dtype=dtype, count=count).reshape(shape)
-
-
-#: Output arrays of the run in progress, seen by the workers forked while it runs.
-_OUTPUT: dict[str, np.ndarray] = {}
-
-
 def _store(result: WardResult, lo: int, output: dict[str, np.ndarray]) -> None:
     """Copy the per-path measures of the chunk starting at path ``lo`` into ``output``."""
     for name, values in output.items():
         values[lo : lo + result.paths] = getattr(result, name)
 
 
-def _run_into_output(lo: int, arguments: tuple) -> None:
-    """In a worker: run one chunk and write its measures into the shared ``_OUTPUT``."""
-    _store(_run(*arguments), lo, _OUTPUT)
+def _run_into_shared(path: str, layout: dict, lo: int, arguments: tuple) -> None:
+    """In a worker: run one chunk and write its measures into the shared arrays."""
+    result = _run(*arguments)
+    workers.write_shared(path, layout, lo, {name: getattr(result, name) for name in layout})
 
 
 def chunk_bounds(paths: int, jobs: int, chunk: int | None) -> list[tuple[int, int]]:
@@ -167,37 +155,45 @@ def simulate(
 
 
 def _in_processes(pieces, arguments, jobs, finished, shifts) -> WardResult:
-    """Chunk i runs in this process when i is a multiple of ``jobs``, the others in
-    ``jobs - 1`` forked workers (the chunks are of nearly equal size, so the processes finish
-    together); every process writes its chunks' measures into one set of shared arrays."""
-    global _OUTPUT
+    """Chunk i runs in this process when i is a multiple of ``jobs``, the others in the
+    session's ``jobs - 1`` workers (:mod:`planner.simulate.workers`; the chunks are of nearly
+    equal size, so the processes finish together); every process writes its chunks' measures
+    into one set of shared arrays."""
     paths, days = pieces[-1][1], arguments[0][1].shape[1]
-    output = {name: _shared_zeros((paths, days), np.float64 if name == "wait_hours" else np.int32)
-              for name in PATH_DAILY}  # fmt: skip
-    output |= {name: _shared_zeros((paths, days, shifts), np.int32) for name in PATH_SHIFTS}
+    specification = {name: ((paths, days), np.float64 if name == "wait_hours" else np.int32)
+                     for name in PATH_DAILY}  # fmt: skip
+    specification |= {name: ((paths, days, shifts), np.int32) for name in PATH_SHIFTS}
     here = [lo for i, (lo, _) in enumerate(pieces) if i % jobs == 0]
-    results = {}
-    _OUTPUT = output
+    forked = workers.can_fork()
+    shared = workers.SharedArrays(specification) if forked else None
+    output = shared.arrays if forked else {
+        name: np.zeros(shape, dtype) for name, (shape, dtype) in specification.items()
+    }  # fmt: skip
+    place = (shared.path, shared.layout) if forked else ()
+    results, futures = {}, {}
     try:
-        forked = "fork" in multiprocessing.get_all_start_methods()
-        context = multiprocessing.get_context("fork" if forked else None)
-        with ProcessPoolExecutor(max_workers=jobs - 1, mp_context=context) as pool:
-            futures = {
-                lo: pool.submit(_run_into_output, lo, arguments[lo])
-                if forked
-                else pool.submit(_run, *arguments[lo])  # no fork: results come back pickled
-                for lo, _ in pieces
-                if lo not in here
-            }
-            for lo in here:
-                results[lo] = _run(*arguments[lo])
-                _store(results[lo], lo, output)
-                finished(lo, results[lo])
-            for lo, future in futures.items():
+        futures = {
+            lo: workers.submit(jobs - 1, _run_into_shared, *place, lo, arguments[lo])
+            if forked
+            else workers.submit(jobs - 1, _run, *arguments[lo])  # results come back pickled
+            for lo, _ in pieces
+            if lo not in here
+        }
+        for lo in here:
+            results[lo] = _run(*arguments[lo])
+            _store(results[lo], lo, output)
+            finished(lo, results[lo])
+        for lo, future in futures.items():
+            try:
                 part = future.result()
-                if part is not None:
-                    _store(part, lo, output)
-                finished(lo, part)
+            except BrokenProcessPool:  # a worker was killed: run its chunk here instead
+                part = _run(*arguments[lo])
+            if part is not None:
+                _store(part, lo, output)
+            finished(lo, part)
     finally:
-        _OUTPUT = {}
+        for future in futures.values():
+            future.cancel()  # if this process stopped early, drop the chunks not yet started
+        if shared is not None:
+            shared.remove()
     return replace(results[0], **output)
