@@ -13,11 +13,19 @@ Rows:
 - fast + summaries: the fast engine, then the weekly, daily and shift summaries read from the
   result's arrays (what ``planner run`` does after the forecast).
 
+The rows above are the best of three calls in one process: the first call pays for the first
+touch of its memory and, with jobs=2, for starting the worker (kept for the session after
+that). A command such as ``planner run`` simulates once, so the table "first run in a new
+process" times that call alone, each time in a fresh Python process (best of three processes).
+
 Last, the peak memory (tracemalloc) of the fast engine for 10,000 paths x 182 days.
 """
 
 from __future__ import annotations
 
+import os
+import subprocess
+import sys
 import time
 import tracemalloc
 from datetime import date
@@ -27,11 +35,20 @@ import simpy
 
 from planner.report.weekly import weekly_paths
 from planner.simulate.engines import simulate
-from planner.simulate.fast import simulate_ward_fast
+from planner.simulate.fast import (
+    BLOCK_PATHS,
+    arrival_rows,
+    by_slot,
+    simpy_clock,
+    simulate_ward_fast,
+)
+from planner.simulate.fast_beds import allocate_beds
+from planner.simulate.fast_records import Pieces, daily_records
+from planner.simulate.fast_streams import draw_block
 from planner.simulate.settings import WardSettings
 from planner.simulate.stays import Lognormal
 from planner.simulate.summary import summarise_daily, summarise_shifts
-from planner.simulate.ward import simulate_ward
+from planner.simulate.ward import beds_open_by_day, simulate_ward
 
 START = date(2024, 1, 1)
 DAYS = 91
@@ -108,14 +125,99 @@ def ward_case(beds, rate, paths, simpy_paths):
 
 def peak_memory(paths: int, days: int) -> float:
     """Peak memory (GB) traced while the fast engine simulates the demo ward."""
-    arrivals = np.random.default_rng(SEED).poisson(DEMO_RATE, size=(paths, days))
-    elapsed = np.random.default_rng(SEED + 1).exponential(MEAN_STAY, round(OCCUPANCY * DEMO_BEDS))
-    stays = Lognormal.from_mean_sd(MEAN_STAY, SD_STAY)
+    arrivals, arguments = demo_inputs(paths, days)
     tracemalloc.start()
-    simulate_ward_fast(arrivals, START, WardSettings(beds=DEMO_BEDS), stays, elapsed, UNIFORM, 1)
+    simulate_ward_fast(arrivals, *arguments)
     peak = tracemalloc.get_traced_memory()[1]
     tracemalloc.stop()
     return peak / 1e9
+
+
+def demo_inputs(paths: int, days: int = DAYS):
+    """Arrivals (Poisson, the demo ward's rate) and the other arguments of the engines."""
+    arrivals = np.random.default_rng(SEED).poisson(DEMO_RATE, size=(paths, days))
+    elapsed = np.random.default_rng(SEED + 1).exponential(MEAN_STAY, round(OCCUPANCY * DEMO_BEDS))
+    stays = Lognormal.from_mean_sd(MEAN_STAY, SD_STAY)
+    return arrivals, (START, WardSettings(beds=DEMO_BEDS), stays, elapsed, UNIFORM, SEED)
+
+
+def first_call(jobs: int, paths: int) -> None:
+    """Print the seconds of one fast-engine call (run in a fresh process by ``first_run``)."""
+    arrivals, arguments = demo_inputs(paths)
+    clock = time.perf_counter()
+    simulate(arrivals, *arguments, engine="fast", jobs=jobs)
+    print(time.perf_counter() - clock)
+
+
+def first_run(jobs: int, paths: int) -> float:
+    """Best of three fresh processes: seconds of the first fast-engine call in each."""
+    command = [sys.executable, __file__, "--first-call", str(jobs), str(paths)]
+    root = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+    path = os.pathsep.join(filter(None, [root, os.environ.get("PYTHONPATH")]))
+    environment = {**os.environ, "PYTHONPATH": path}
+    times = [
+        float(subprocess.run(command, check=True, capture_output=True, text=True,
+                             env=environment).stdout)
+        for _ in range(3)
+    ]  # fmt: skip
+    return min(times)
+
+
+def print_first_runs(paths: int) -> None:
+    patients = demo_inputs(paths)[0].sum()
+    seconds = {jobs: first_run(jobs, paths) for jobs in (1, 2)}
+    print(f"\ndemo ward, {paths:,} paths, first run in a new process (as planner run makes it)")
+    print(f"{'engine':28s} {'paths':>7s} {'patients/s':>12s}")
+    for jobs, value in seconds.items():
+        print(f"{f'fast, jobs={jobs}':28s} {paths:7d} {patients / value:12,.0f}")
+    print(f"jobs=2 speed-up over jobs=1: {seconds[1] / seconds[2]:.2f}x")
+
+
+def _layout(rows, stay_days):
+    return by_slot(rows), by_slot(stay_days, 24.0)
+
+
+def phases(paths: int = BLOCK_PATHS) -> list[tuple[str, float]]:
+    """Nanoseconds per patient of each step of one fast-engine block of the demo ward (best of
+    three): the random draws, arrival times, the (slots x paths) layout, the SimPy clock, the
+    bed allocation loop, the daily and shift records."""
+    arrivals, (start, ward, stays, elapsed, profile, seed) = demo_inputs(paths)
+    counts = arrivals.astype(np.int64)
+    totals = counts.sum(axis=1)
+    order = np.argsort(-totals, kind="stable")
+    beds = beds_open_by_day(ward, start, DAYS)
+    starts = np.sort([shift.start_hour for shift in ward.staffing.shifts])
+    best: dict[str, float] = {}
+
+    def step(name, function, *arguments, **keywords):
+        clock = time.perf_counter()
+        value = function(*arguments, **keywords)
+        best[name] = min(best.get(name, float("inf")), time.perf_counter() - clock)
+        return value
+
+    for _ in range(3):
+        draws = step("random draws", draw_block, "spawned", seed, 0, totals, order, stays, elapsed)
+        rows = step("arrival times", arrival_rows, draws.hour_uniforms, draws.within_uniforms,
+                    counts[order], profile)  # fmt: skip
+        arrival, stay = step("layout (slots x paths)", _layout, rows, draws.stay_days)
+        clock = step("SimPy clock", simpy_clock, arrival)
+        remaining = 24.0 * draws.remaining_days
+        times = step("bed allocation", allocate_beds, arrival, clock, stay, totals[order],
+                     remaining[order], beds, wait=True)  # fmt: skip
+        step("daily and shift records", daily_records, times, arrival, order, counts, remaining,
+             Pieces(DAYS, starts))  # fmt: skip
+    patients = int(totals.sum())
+    return [(name, 1e9 * seconds / patients) for name, seconds in best.items()]
+
+
+def print_phases() -> None:
+    rows = phases()
+    print(f"\nfast engine, one block of {BLOCK_PATHS:,} demo paths: time per patient by step")
+    print(f"{'step':28s} {'ns/patient':>11s}")
+    for name, nanoseconds in rows:
+        print(f"{name:28s} {nanoseconds:11.1f}")
+    total = sum(value for _, value in rows)
+    print(f"{'all':28s} {total:11.1f}   ({1e9 / total:,.0f} patients/s on one core)")
 
 
 def print_table(title, rows):
@@ -141,8 +243,13 @@ def main():
         rate = OCCUPANCY * beds / MEAN_STAY
         print_table(f"{beds} beds, {rate:.1f}/day (occupancy ~{OCCUPANCY:.0%}), {DAYS} days",
                     ward_case(beds, rate, paths, simpy_paths))  # fmt: skip
+    print_first_runs(10_000)
+    print_phases()
     print(f"\npeak memory, fast engine, 10,000 paths x 182 days: {peak_memory(10_000, 182):.2f} GB")
 
 
 if __name__ == "__main__":
-    main()
+    if sys.argv[1:2] == ["--first-call"]:
+        first_call(int(sys.argv[2]), int(sys.argv[3]))
+    else:
+        main()
