@@ -18,6 +18,9 @@ touch of its memory and, with jobs=2, for starting the worker (kept for the sess
 that). A command such as ``planner run`` simulates once, so the table "first run in a new
 process" times that call alone, each time in a fresh Python process (best of three processes).
 
+Like the command line, the script asks the C allocator to keep freed memory
+(:func:`planner.simulate.workers.keep_freed_memory`).
+
 Last, the peak memory (tracemalloc) of the fast engine for 10,000 paths x 182 days.
 """
 
@@ -49,6 +52,7 @@ from planner.simulate.settings import WardSettings
 from planner.simulate.stays import Lognormal
 from planner.simulate.summary import summarise_daily, summarise_shifts
 from planner.simulate.ward import beds_open_by_day, simulate_ward
+from planner.simulate.workers import keep_freed_memory
 
 START = date(2024, 1, 1)
 DAYS = 91
@@ -249,6 +253,7 @@ def main():
 
 
 if __name__ == "__main__":
+    keep_freed_memory()  # as the command line does
     if sys.argv[1:2] == ["--first-call"]:
         first_call(int(sys.argv[2]), int(sys.argv[3]))
     else:

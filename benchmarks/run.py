@@ -25,6 +25,8 @@ sys.path.insert(0, str(HERE.parent))
 import engines  # noqa: E402
 import forecast  # noqa: E402
 
+from planner.simulate.workers import keep_freed_memory  # noqa: E402
+
 
 def end_to_end(paths: int | None, engine: str, jobs: int) -> float:
     """Seconds for `planner run` on the bundled demo (files written to a temporary folder)."""
@@ -49,6 +51,9 @@ def _peak_memory_child(paths: int, weeks: int, queue) -> None:
 
     from planner.pipeline import run_scenario
     from planner.scenario import load_scenario
+    from planner.simulate.workers import keep_freed_memory
+
+    keep_freed_memory()  # as the command line does
 
     scenario = replace(load_scenario(), horizon_weeks=weeks)
     run_scenario(scenario, paths, engine="fast", jobs=1)
@@ -67,6 +72,7 @@ def peak_memory_mb(paths: int, weeks: int) -> float:
 
 
 def main() -> None:
+    keep_freed_memory()  # as the command line does
     print("Forecast (3 years of daily history, horizon 91 days)")
     print(f"{'case':52} {'seconds':>9} {'x reference':>12}")
     for case, seconds, _, ratio in forecast.rows():

@@ -52,6 +52,7 @@ from planner.pipeline import (
 )
 from planner.report.files import file_sha256, json_ready
 from planner.scenario import Scenario
+from planner.simulate.workers import keep_freed_memory
 
 #: Threshold columns -> beds below beds open.
 THRESHOLDS = {"p_over_beds": 0, "p_over_beds_minus_2": 2, "p_over_beds_minus_4": 4}
@@ -198,7 +199,8 @@ def _map(arguments: list, workers: int) -> list[pd.DataFrame]:
     saved = {k: os.environ.get(k) for k in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS")}
     os.environ.update({k: "1" for k in saved})
     try:
-        pool = multiprocessing.get_context("spawn").Pool(min(workers, len(arguments)))
+        context = multiprocessing.get_context("spawn")
+        pool = context.Pool(min(workers, len(arguments)), initializer=keep_freed_memory)
     finally:
         for k, v in saved.items():
             if v is None:

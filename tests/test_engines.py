@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import multiprocessing
 import os
+import platform
 import signal
 import tempfile
 import time
@@ -216,3 +217,10 @@ def test_a_killed_worker_is_replaced_and_the_numbers_do_not_change():
     time.sleep(0.2)
     assert_equal_results(run(jobs=2), expected)
     assert_equal_results(run(jobs=2), expected)
+
+
+def test_freed_memory_is_kept_on_glibc_and_the_request_skipped_elsewhere(monkeypatch):
+    if platform.libc_ver()[0] == "glibc":
+        assert workers.keep_freed_memory()
+    monkeypatch.setattr(workers.ctypes, "CDLL", lambda name: object())  # no mallopt
+    assert workers.keep_freed_memory() is False

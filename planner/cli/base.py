@@ -170,5 +170,8 @@ def main() -> None:
     for name in BLAS_THREAD_VARIABLES:
         os.environ.setdefault(name, "1")
     import planner.cli  # noqa: F401  (registers the commands)
+    from planner.simulate.workers import keep_freed_memory
+
+    keep_freed_memory()
 
     cli(prog_name="planner")

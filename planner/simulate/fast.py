@@ -46,16 +46,15 @@ def hours_of_day(uniforms: np.ndarray, profile: np.ndarray) -> np.ndarray:
     """Hour of the day (0-23) for each uniform in [0, 1): the number of entries of the
     cumulative ``profile`` at or below it (``searchsorted(cdf, u, "right")``, as
     ``Generator.choice`` inverts it), read from a table of buckets of width 1/4096; uniforms in
-    the few buckets holding a cumulative share are searched exactly."""
+    the few buckets holding a cumulative share (marked -1 in the table) are searched exactly."""
     p = profile / profile.sum()
     cdf = p.cumsum()
     cdf /= cdf[-1]
     edges = np.arange(_HOUR_BUCKETS + 1) / _HOUR_BUCKETS
-    low = cdf.searchsorted(edges[:-1], side="right")
-    unsure = cdf.searchsorted(edges[1:], side="left") > low
-    bucket = (uniforms * _HOUR_BUCKETS).astype(np.intp)
-    hour = low[bucket]
-    where = np.flatnonzero(unsure[bucket])
+    table = cdf.searchsorted(edges[:-1], side="right").astype(np.int8)
+    table[cdf.searchsorted(edges[1:], side="left") > table] = -1
+    hour = table[(uniforms * _HOUR_BUCKETS).astype(np.intp)]
+    where = np.flatnonzero(hour < 0)
     hour.flat[where] = cdf.searchsorted(uniforms.flat[where], side="right")
     return hour
 
