@@ -145,13 +145,12 @@ def allocate_beds(
             if not constant:
                 hard = np.flatnonzero((after < horizon) & (free_from > after))
                 start[hard] = _earliest_bed(rows[:, hard], after[hard], beds_open)
-            taken = start < horizon
-            immediate = taken & (start == now)
-            bed = np.minimum(start, horizon)
+            immediate = start == now
+            immediate &= start < horizon  # given a bed on arrival
+            bed = np.minimum(start, horizon, out=bed_hour[k, :m])
             np.copyto(bed, arrival[k, :m], where=immediate)
-            bed_hour[k, :m] = bed
             np.logical_not(immediate, out=waited[k, :m])
-            previous[:m] = start
+            previous = start  # the next step reads a prefix of it (fewer paths still arrive)
             out = np.add(start, stay[k, :m], out=released[k, :m])  # >= horizon if not taken
         else:
             start = now
