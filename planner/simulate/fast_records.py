@@ -76,6 +76,22 @@ def _per_piece(paths: int, bins: int, piece: np.ndarray) -> np.ndarray:
     return np.bincount(piece.ravel(), minlength=paths * bins).reshape(paths, bins)
 
 
+def _shift_peaks(within: np.ndarray, first: np.ndarray, last: int) -> np.ndarray:
+    """(paths, days, shifts) highest level reached after a bed was taken in each shift: shift
+    j of day d covers pieces ``first[d, j] + 1`` to the next shift's start (``last``, the
+    window's last piece, for the final one), a few pieces, so the maximum is taken one piece
+    at a time (``np.maximum.reduceat`` over so many short segments is several times slower)."""
+    following = np.append(first.ravel()[1:], last).reshape(first.shape)
+    peaks = np.empty((within.shape[0], *first.shape), dtype=within.dtype)
+    for j in range(first.shape[1]):
+        peak = peaks[:, :, j]
+        peak[...] = within[:, first[:, j] + 1]
+        for extra in range(2, int((following[:, j] - first[:, j]).max()) + 1):
+            # Shifts with fewer pieces (the last, cut at the window's end) repeat their last.
+            np.maximum(peak, within[:, np.minimum(first[:, j] + extra, following[:, j])], out=peak)
+    return peaks
+
+
 def daily_records(
     times: BedTimes,
     arrival: np.ndarray,
@@ -138,9 +154,7 @@ def daily_records(
     daily["census"] = level[:, per_day : per_day * days + 1 : per_day]
     midnight = level[:, 0 : per_day * days : per_day]
     daily["peak_occupancy"] = np.maximum(midnight, _over_day(pieces.by_day(within), np.maximum))
-    first = pieces.shift_bounds.ravel()  # boundary number of each shift's start
-    shift_peak = np.maximum.reduceat(within[:, : days * per_day + 1], first + 1, axis=1)
-    shift_peak = shift_peak.reshape(paths, days, -1)
+    shift_peak = _shift_peaks(within, pieces.shift_bounds, days * per_day)
     at_start = level[:, : days * per_day].reshape(paths, days, per_day)
     for j, position in enumerate(pieces.shift_bounds[0]):
         np.maximum(shift_peak[..., j], at_start[..., position], out=shift_peak[..., j])
