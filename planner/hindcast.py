@@ -52,7 +52,7 @@ from planner.pipeline import (
 )
 from planner.report.files import file_sha256, json_ready
 from planner.scenario import Scenario
-from planner.simulate.workers import keep_freed_memory
+from planner.simulate.workers import worker_setup
 
 #: Threshold columns -> beds below beds open.
 THRESHOLDS = {"p_over_beds": 0, "p_over_beds_minus_2": 2, "p_over_beds_minus_4": 4}
@@ -200,7 +200,7 @@ def _map(arguments: list, workers: int) -> list[pd.DataFrame]:
     os.environ.update({k: "1" for k in saved})
     try:
         context = multiprocessing.get_context("spawn")
-        pool = context.Pool(min(workers, len(arguments)), initializer=keep_freed_memory)
+        pool = context.Pool(min(workers, len(arguments)), initializer=worker_setup)
     finally:
         for k, v in saved.items():
             if v is None:

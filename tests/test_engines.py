@@ -16,7 +16,7 @@ import pandas as pd
 import pytest
 
 from planner.errors import PlannerError
-from planner.simulate import distributed, workers
+from planner.simulate import distributed, engines, workers
 from planner.simulate.engines import (
     ENGINES,
     chosen_engine,
@@ -224,3 +224,24 @@ def test_freed_memory_is_kept_on_glibc_and_the_request_skipped_elsewhere(monkeyp
         assert workers.keep_freed_memory()
     monkeypatch.setattr(workers.ctypes, "CDLL", lambda name: object())  # no mallopt
     assert workers.keep_freed_memory() is False
+
+
+@needs_fork
+def test_workers_leave_ctrl_c_to_this_process():
+    assert workers.submit(1, signal.getsignal, signal.SIGINT).result() == signal.SIG_IGN
+
+
+@needs_fork
+def test_a_failed_run_stops_the_workers_and_the_next_run_is_whole(monkeypatch):
+    run(jobs=2)
+    pool = workers.pool(1)
+
+    def failing(*arguments):
+        raise PlannerError("this chunk failed")
+
+    monkeypatch.setattr(engines, "_run", failing)
+    with pytest.raises(PlannerError, match="this chunk failed"):
+        run(jobs=2)
+    monkeypatch.undo()
+    assert workers.pool(1) is not pool
+    assert_equal_results(run(jobs=2), run())

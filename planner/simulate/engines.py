@@ -170,7 +170,7 @@ def _in_processes(pieces, arguments, jobs, finished, shifts) -> WardResult:
         name: np.zeros(shape, dtype) for name, (shape, dtype) in specification.items()
     }  # fmt: skip
     place = (shared.path, shared.layout) if forked else ()
-    results, futures = {}, {}
+    results = {}
     try:
         futures = {
             lo: workers.submit(jobs - 1, _run_into_shared, *place, lo, arguments[lo])
@@ -191,9 +191,10 @@ def _in_processes(pieces, arguments, jobs, finished, shifts) -> WardResult:
             if part is not None:
                 _store(part, lo, output)
             finished(lo, part)
+    except BaseException:  # interrupted (Ctrl-C) or failed: stop the workers' chunks too
+        workers.stop()
+        raise
     finally:
-        for future in futures.values():
-            future.cancel()  # if this process stopped early, drop the chunks not yet started
         if shared is not None:
             shared.remove()
     return replace(results[0], **output)

@@ -21,6 +21,7 @@ import ctypes
 import mmap
 import multiprocessing
 import os
+import signal
 import tempfile
 from concurrent.futures import ProcessPoolExecutor
 from concurrent.futures.process import BrokenProcessPool
@@ -52,6 +53,13 @@ def keep_freed_memory() -> bool:
         return False
     mallopt.argtypes = (ctypes.c_int, ctypes.c_int)
     return bool(mallopt(_M_TRIM_THRESHOLD, _KEEP_BYTES) and mallopt(_M_MMAP_THRESHOLD, _KEEP_BYTES))
+
+
+def worker_setup() -> None:
+    """Start of every worker process: keep freed memory, and leave Ctrl-C to the main process
+    (which stops the workers), so an interrupted run prints no worker tracebacks."""
+    keep_freed_memory()
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
 
 
 def can_fork() -> bool:
@@ -135,6 +143,18 @@ def _shutdown() -> None:
         pool.shutdown(wait=True, cancel_futures=True)
 
 
+def stop() -> None:
+    """Stop the session's workers at once, chunks in progress included (after an interrupted
+    or failed run); the next run starts new ones."""
+    pool = _POOL.pop("pool", None)
+    if pool is None:
+        return
+    processes = getattr(pool, "_processes", None) or {}  # ProcessPoolExecutor's own table
+    for process in list(processes.values()):
+        process.terminate()
+    pool.shutdown(wait=False, cancel_futures=True)
+
+
 def pool(workers: int) -> ProcessPoolExecutor:
     """The session's pool of ``workers`` processes, started on first use (forked where
     possible) and kept; asking for another number replaces it."""
@@ -142,7 +162,7 @@ def pool(workers: int) -> ProcessPoolExecutor:
     if _POOL.get("kind") != kind or _POOL.get("pool") is None:
         _shutdown()
         context = multiprocessing.get_context("fork" if kind[1] else None)
-        _POOL["pool"] = ProcessPoolExecutor(max_workers=workers, mp_context=context)
+        _POOL["pool"] = ProcessPoolExecutor(workers, context, initializer=worker_setup)
         _POOL["kind"] = kind
         if not _POOL.get("registered"):
             atexit.register(_shutdown)
