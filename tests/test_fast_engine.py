@@ -23,6 +23,7 @@ from planner.simulate.fast import arrival_hours, by_slot, simpy_clock, simulate_
 from planner.simulate.queueing import erlang_b, erlang_c
 from planner.simulate.settings import BedChange, Shift, StaffingSettings, WardSettings
 from planner.simulate.stays import Exponential, Gamma, Lognormal, Weibull
+from planner.simulate.survival import KaplanMeierStays
 from planner.simulate.ward import simulate_ward
 
 START = date(2024, 1, 1)
@@ -90,6 +91,22 @@ def test_same_tables_as_simpy_model(policy, beds, changes, inpatients):
     fast = assert_same(arrivals, START, ward, stays, elapsed, PEAKED, 2)
     blocked = "waited" if policy == "wait" else "diverted"
     assert fast.daily[blocked].sum() > 0  # the bed rules were exercised
+
+
+@pytest.mark.parametrize("policy", ["wait", "divert"])
+def test_same_tables_with_recorded_stays(policy):
+    # Stays learned from episodes (Kaplan-Meier, some still running, so with the tail) are
+    # drawn for a whole block at once from each path's uniforms; the numbers must not change.
+    rng = np.random.default_rng(6)
+    durations = np.round(rng.lognormal(1.4, 0.8, 600), 2)
+    observed = rng.random(600) > 0.05
+    observed[np.argsort(durations)[-10:]] = False
+    stays = KaplanMeierStays(durations, observed)
+    ward = WardSettings(beds=18, bed_changes=CLOSURES, policy=policy)
+    arrivals = poisson_paths(9, 25, 30, 4.5)
+    fast = assert_same(arrivals, START, ward, stays, np.linspace(0.0, 30.0, 16), PEAKED, 9)
+    blocked = "waited" if policy == "wait" else "diverted"
+    assert fast.daily[blocked].sum() > 0
 
 
 def test_same_staffing_tables_with_three_shifts():

@@ -24,6 +24,7 @@ from planner.errors import PlannerError
 from planner.simulate.fast_beds import allocate_beds
 from planner.simulate.fast_records import Pieces, daily_records
 from planner.simulate.fast_streams import draw_block
+from planner.simulate.lookup import UnitSearch
 from planner.simulate.result import PATH_DAILY, WardResult, ward_result
 from planner.simulate.settings import WardSettings
 from planner.simulate.ward import beds_open_by_day, check_inputs
@@ -36,8 +37,6 @@ STREAMS = ("spawned", "counter")
 #: the per-step arrays of bed release times small enough for the processor's cache (2048 ran
 #: 10,000 demo paths about a fifth faster than 4096 in a fresh process, 1024 no faster).
 BLOCK_PATHS = 2048
-#: Buckets of the table that turns a uniform into an hour of the day (a power of two).
-_HOUR_BUCKETS = 4096
 #: Paths per band when turning (paths x slots) arrays into (slots x paths) ones.
 _BAND = 256
 
@@ -45,18 +44,11 @@ _BAND = 256
 def hours_of_day(uniforms: np.ndarray, profile: np.ndarray) -> np.ndarray:
     """Hour of the day (0-23) for each uniform in [0, 1): the number of entries of the
     cumulative ``profile`` at or below it (``searchsorted(cdf, u, "right")``, as
-    ``Generator.choice`` inverts it), read from a table of buckets of width 1/4096; uniforms in
-    the few buckets holding a cumulative share (marked -1 in the table) are searched exactly."""
+    ``Generator.choice`` inverts it), read from a table (:class:`UnitSearch`)."""
     p = profile / profile.sum()
     cdf = p.cumsum()
     cdf /= cdf[-1]
-    edges = np.arange(_HOUR_BUCKETS + 1) / _HOUR_BUCKETS
-    table = cdf.searchsorted(edges[:-1], side="right").astype(np.int8)
-    table[cdf.searchsorted(edges[1:], side="left") > table] = -1
-    hour = table[(uniforms * _HOUR_BUCKETS).astype(np.intp)]
-    where = np.flatnonzero(hour < 0)
-    hour.flat[where] = cdf.searchsorted(uniforms.flat[where], side="right")
-    return hour
+    return UnitSearch(cdf, "right", bits=12)(uniforms)
 
 
 def arrival_rows(hour_uniforms, within_uniforms, counts, profile) -> np.ndarray:

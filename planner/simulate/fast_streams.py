@@ -20,7 +20,10 @@ Streams (``streams``):
 Either way a path's numbers depend only on the seed and the path number, never on how the
 paths are chunked. Remaining stays are computed for all paths in one ``sample_remaining``
 call, which relies on its contract: one uniform per patient, drawn with ``rng.random``, patient
-by patient. A distribution that draws otherwise is detected and sampled path by path.
+by patient. Stays of new patients are computed the same way, each path's uniforms drawn from
+its own stream and transformed in one call, when the distribution samples by inverse
+transform (the Kaplan-Meier stays learned from episodes do); a distribution that draws
+otherwise (lognormal, gamma, Weibull) is detected and sampled path by path.
 """
 
 from __future__ import annotations
@@ -181,6 +184,26 @@ class BlockDraws:
     remaining_days: np.ndarray
 
 
+def _from_uniforms(stays, uniforms: np.ndarray) -> np.ndarray:
+    """``stays.sample`` given the uniforms it would draw (see :func:`_samples_uniforms`)."""
+    return np.asarray(stays.sample(_GivenUniforms(uniforms), uniforms.size), dtype=float)
+
+
+def _samples_uniforms(stays) -> bool:
+    """Whether ``stays.sample(rng, n)`` draws exactly ``rng.random(n)`` and transforms each
+    uniform alone (as inverse transforms do), so that the stays of many paths can be computed
+    in one call from each path's own uniforms. Probed with uniforms standing in for a
+    generator; a distribution that asks for anything else (``rng.lognormal``, ...) is sampled
+    path by path."""
+    probe = np.array([0.125, 0.5, 0.875])
+    try:
+        together = _from_uniforms(stays, probe)
+        alone = [_from_uniforms(stays, probe[j : j + 1])[0] for j in range(probe.size)]
+    except _NotUniforms:
+        return False
+    return together.shape == probe.shape and np.array_equal(together, alone)
+
+
 def _remaining_in_bulk(stays, uniforms: np.ndarray, elapsed: np.ndarray) -> np.ndarray | None:
     given = _GivenUniforms(uniforms.ravel())
     try:
@@ -199,12 +222,19 @@ def draw_block(streams, seed, first_path, totals, order, stays, elapsed) -> Bloc
     remaining = np.zeros((paths, inpatients))
     if streams == "spawned":
         words = spawned_state_words(seed, paths, first_path)
+        bulk = _samples_uniforms(stays)
         for row, i in enumerate(order.tolist()):
             n = int(totals[i])
             rng = _generator(words[i, 0])
             rng.random(out=hour[row, :n])
             rng.random(out=within[row, :n])
-            stay[row, :n] = stays.sample(_generator(words[i, 1]), n)
+            if bulk:  # this path's uniforms now, all the block's stays at once below
+                _generator(words[i, 1]).random(out=stay[row, :n])
+            else:
+                stay[row, :n] = stays.sample(_generator(words[i, 1]), n)
+        if bulk:
+            filled = np.arange(slots) < totals[order][:, None]
+            stay[filled] = _from_uniforms(stays, stay[filled])
         if inpatients:
             for i in range(paths):
                 _generator(words[i, 2]).random(out=remaining[i])

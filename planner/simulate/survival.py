@@ -26,6 +26,7 @@ import numpy as np
 import pandas as pd
 
 from planner.errors import PlannerError
+from planner.simulate.lookup import UnitSearch
 from planner.simulate.stays import (
     MINIMUM_STAY_DAYS,
     StayDistribution,
@@ -130,6 +131,8 @@ class KaplanMeierStays(StayDistribution):
     observed: np.ndarray
     estimate: KaplanMeier = field(init=False)
     tail_mean_days: float = field(init=False)
+    #: Count of survival values below a target (the estimate's S, increasing), by table.
+    _below: UnitSearch = field(init=False, repr=False, compare=False)
     name: ClassVar[str] = "Kaplan-Meier"
 
     def __post_init__(self) -> None:
@@ -137,6 +140,7 @@ class KaplanMeierStays(StayDistribution):
         estimate = kaplan_meier(x, e)
         object.__setattr__(self, "estimate", estimate)
         object.__setattr__(self, "tail_mean_days", _tail_mean(estimate, x, e))
+        object.__setattr__(self, "_below", UnitSearch(estimate.survival[::-1], "left"))
 
     @property
     def _masses(self) -> np.ndarray:
@@ -167,23 +171,24 @@ class KaplanMeierStays(StayDistribution):
             self.estimate(np.minimum(t, self.estimate.largest)),
         )
 
-    def _inverse(self, target: np.ndarray, after: np.ndarray) -> np.ndarray:
-        """The stay t > ``after`` with S(t) first below ``target`` (inverse transform)."""
+    def _inverse(self, target: np.ndarray, after: np.ndarray | float) -> np.ndarray:
+        """The stay t > ``after`` with S(t) first below ``target`` (inverse transform; targets
+        in (0, 1])."""
         km = self.estimate
-        # survival is non-increasing: the first index with S_j < target, searched on -S.
-        index = np.searchsorted(-km.survival, -target, "right")
-        in_steps = index < km.times.size
-        steps = km.times[np.minimum(index, km.times.size - 1)]
-        # Entries found in the steps do not use the tail; for them the tail may be log(0) or
-        # 0/0 (no mass left past the longest stay), which np.where below discards.
-        with np.errstate(divide="ignore", invalid="ignore"):
-            tail = km.largest + self.tail_mean_days * np.log(self._tail_mass / target)
-        tail = np.maximum(tail, after)  # only reached for after > largest (memoryless there)
-        return np.where(in_steps, steps, tail)
+        steps = km.times.size
+        index = steps - self._below(target)  # the first j with S_j < target
+        stay = km.times[np.minimum(index, steps - 1)]
+        beyond = np.flatnonzero(index >= steps)  # S never falls below target: the tail
+        if beyond.size:
+            with np.errstate(divide="ignore"):
+                tail = km.largest + self.tail_mean_days * np.log(self._tail_mass / target[beyond])
+            # The tail is only reached for after > largest (memoryless there).
+            stay[beyond] = np.maximum(tail, np.broadcast_to(after, target.shape)[beyond])
+        return stay
 
     def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
         u = _uniform_open_closed(rng, size)
-        return np.maximum(self._inverse(u, np.zeros(size)), MINIMUM_STAY_DAYS)
+        return np.maximum(self._inverse(u, 0.0), MINIMUM_STAY_DAYS)
 
     def sample_remaining(self, rng: np.random.Generator, elapsed: np.ndarray) -> np.ndarray:
         e = _elapsed_days(elapsed)
