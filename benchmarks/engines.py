@@ -3,6 +3,10 @@
 Run from the repository root: ``PYTHONPATH=. python benchmarks/engines.py``. Numpy's own
 threads do not matter here (no linear algebra); set OPENBLAS_NUM_THREADS=1 to rule them out.
 
+Wards: the demo ward is the bundled demo's (``scenarios/baseline.toml``): its beds, staffing
+and policy, its recorded stays (Kaplan-Meier) and current inpatients, with Poisson arrivals at
+its mean rate; the 30- and 300-bed wards are synthetic (lognormal stays, 85% occupancy).
+
 Rows:
 - reference: a minimal SimPy loop of the same ward ("wait" policy), one process per patient
   queuing for a ``simpy.Resource``, written here;
@@ -26,6 +30,7 @@ Last, the peak memory (tracemalloc) of the fast engine for 10,000 paths x 182 da
 
 from __future__ import annotations
 
+import functools
 import os
 import subprocess
 import sys
@@ -36,7 +41,9 @@ from datetime import date
 import numpy as np
 import simpy
 
+from planner.pipeline import load_history, ward_inputs
 from planner.report.weekly import weekly_paths
+from planner.scenario import load_scenario
 from planner.simulate.engines import simulate
 from planner.simulate.fast import (
     BLOCK_PATHS,
@@ -57,7 +64,6 @@ from planner.simulate.workers import keep_freed_memory
 START = date(2024, 1, 1)
 DAYS = 91
 MEAN_STAY, SD_STAY = 5.0, 4.4  # days
-DEMO_BEDS, DEMO_RATE = 28, 4.1  # beds, admissions per day
 OCCUPANCY = 0.85  # for the 30 and 300 bed wards: rate = occupancy x beds / mean stay
 UNIFORM = np.full(24, 1 / 24)
 SEED = 2024
@@ -96,18 +102,26 @@ def timed(function, *arguments, **keywords) -> float:
 
 def with_summaries(arrivals, *arguments):
     result = simulate_ward_fast(arrivals, *arguments)
-    weekly_paths(result, START)
+    weekly_paths(result, arguments[0])
     summarise_daily(result)
     summarise_shifts(result)
 
 
-def ward_case(beds, rate, paths, simpy_paths):
-    """Rows (name, paths, patients/s) for one ward."""
-    stays = Lognormal.from_mean_sd(MEAN_STAY, SD_STAY)
+def synthetic_inputs(beds: int, paths: int):
+    """A ward of ``beds`` beds at ``OCCUPANCY``: Poisson arrivals, lognormal stays, current
+    inpatients with exponential elapsed stays, arrivals spread evenly over the day."""
+    rate = OCCUPANCY * beds / MEAN_STAY
     arrivals = np.random.default_rng(SEED).poisson(rate, size=(paths, DAYS))
     elapsed = np.random.default_rng(SEED + 1).exponential(MEAN_STAY, round(OCCUPANCY * beds))
-    ward = WardSettings(beds=beds)
-    arguments = (START, ward, stays, elapsed, UNIFORM, SEED)
+    stays = Lognormal.from_mean_sd(MEAN_STAY, SD_STAY)
+    return arrivals, (START, WardSettings(beds=beds), stays, elapsed, UNIFORM, SEED)
+
+
+def ward_case(arrivals, arguments, simpy_paths):
+    """Rows (name, paths, patients/s) for one ward (``arguments``: those of the engines after
+    the arrivals)."""
+    paths = arrivals.shape[0]
+    beds, stays = arguments[1].beds, arguments[2]
     rows = []
     if simpy_paths:
         few = arrivals[:simpy_paths]
@@ -137,12 +151,25 @@ def peak_memory(paths: int, days: int) -> float:
     return peak / 1e9
 
 
+@functools.cache
+def _demo_ward():
+    """The bundled demo (scenarios/baseline.toml): ward settings, its recorded stays
+    (Kaplan-Meier), current inpatients, hour-of-day profile, first day and mean admissions per
+    day over the last year of its history."""
+    scenario = load_scenario()
+    history = load_history(scenario)
+    inputs = ward_inputs(scenario, history)
+    rate = float(history.admissions.iloc[-365:].mean())
+    return scenario.ward, inputs, history.first_day.date(), rate
+
+
 def demo_inputs(paths: int, days: int = DAYS):
-    """Arrivals (Poisson, the demo ward's rate) and the other arguments of the engines."""
-    arrivals = np.random.default_rng(SEED).poisson(DEMO_RATE, size=(paths, days))
-    elapsed = np.random.default_rng(SEED + 1).exponential(MEAN_STAY, round(OCCUPANCY * DEMO_BEDS))
-    stays = Lognormal.from_mean_sd(MEAN_STAY, SD_STAY)
-    return arrivals, (START, WardSettings(beds=DEMO_BEDS), stays, elapsed, UNIFORM, SEED)
+    """Arrivals (Poisson at the demo's mean rate) and the other arguments of the engines for
+    the demo ward: its beds, staffing and policy, recorded stays and current inpatients."""
+    ward, inputs, start, rate = _demo_ward()
+    arrivals = np.random.default_rng(SEED).poisson(rate, size=(paths, days))
+    arguments = (start, ward, inputs.stays, inputs.inpatients_elapsed, inputs.hour_profile, SEED)
+    return arrivals, arguments
 
 
 def first_call(jobs: int, paths: int) -> None:
@@ -239,14 +266,17 @@ def print_table(title, rows):
 
 
 def main():
-    print_table(f"demo ward: {DEMO_BEDS} beds, {DEMO_RATE}/day, {DAYS} days, 1,000 paths",
-                ward_case(DEMO_BEDS, DEMO_RATE, 1000, 1000))  # fmt: skip
-    print_table("demo ward, 10,000 paths (fast only)",
-                ward_case(DEMO_BEDS, DEMO_RATE, 10_000, 0))  # fmt: skip
+    ward, inputs, _, rate = _demo_ward()
+    stays, inpatients = inputs.stays.describe(), inputs.inpatients_elapsed.size
+    print(f"demo ward: {ward.beds} beds, {rate:.1f} admissions/day (Poisson), recorded stays "
+          f"({stays}), {inpatients} current inpatients")  # fmt: skip
+    print_table(f"demo ward, {DAYS} days, 1,000 paths", ward_case(*demo_inputs(1000), 1000))
+    print_table(f"demo ward, {DAYS} days, 10,000 paths (fast only)",
+                ward_case(*demo_inputs(10_000), 0))  # fmt: skip
     for beds, paths, simpy_paths in ((30, 1000, 300), (300, 300, 30)):
         rate = OCCUPANCY * beds / MEAN_STAY
-        print_table(f"{beds} beds, {rate:.1f}/day (occupancy ~{OCCUPANCY:.0%}), {DAYS} days",
-                    ward_case(beds, rate, paths, simpy_paths))  # fmt: skip
+        title = f"{beds} beds, {rate:.1f}/day (occupancy ~{OCCUPANCY:.0%}), lognormal stays"
+        print_table(f"{title}, {DAYS} days", ward_case(*synthetic_inputs(beds, paths), simpy_paths))
     print_first_runs(10_000)
     print_phases()
     print(f"\npeak memory, fast engine, 10,000 paths x 182 days: {peak_memory(10_000, 182):.2f} GB")
