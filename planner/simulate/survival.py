@@ -140,7 +140,9 @@ class KaplanMeierStays(StayDistribution):
         estimate = kaplan_meier(x, e)
         object.__setattr__(self, "estimate", estimate)
         object.__setattr__(self, "tail_mean_days", _tail_mean(estimate, x, e))
-        object.__setattr__(self, "_below", UnitSearch(estimate.survival[::-1], "left"))
+        # 2**18 buckets (a 1 MB table): thousands of steps leave 1-2% of uniforms to search.
+        below = UnitSearch(estimate.survival[::-1], "left", bits=18)
+        object.__setattr__(self, "_below", below)
 
     @property
     def _masses(self) -> np.ndarray:
