@@ -172,11 +172,11 @@ class _GivenUniforms:
 
 @dataclass(frozen=True)
 class BlockDraws:
-    """A block's random draws, rows in the order given (padded after each row's count):
-    ``hour_uniforms`` and ``within_uniforms`` pick each arrival's hour of day and time within
-    the hour (rows x slots), ``stay_days`` the stays of the arrivals in order (rows x slots),
-    ``remaining_days`` the remaining stays of the current inpatients (paths in block order x
-    inpatients)."""
+    """A block's random draws, rows in the order given (entries after each row's count are
+    padding, never read): ``hour_uniforms`` and ``within_uniforms`` pick each arrival's hour of
+    day and time within the hour (rows x slots), ``stay_days`` the stays of the arrivals in
+    order (rows x slots), ``remaining_days`` the remaining stays of the current inpatients
+    (paths in block order x inpatients)."""
 
     hour_uniforms: np.ndarray
     within_uniforms: np.ndarray
@@ -232,9 +232,8 @@ def draw_block(streams, seed, first_path, totals, order, stays, elapsed) -> Bloc
                 _generator(words[i, 1]).random(out=stay[row, :n])
             else:
                 stay[row, :n] = stays.sample(_generator(words[i, 1]), n)
-        if bulk:
-            filled = np.arange(slots) < totals[order][:, None]
-            stay[filled] = _from_uniforms(stays, stay[filled])
+        if bulk:  # the padding is transformed too (never read): cheaper than picking it out
+            stay = _from_uniforms(stays, stay.ravel()).reshape(stay.shape)
         if inpatients:
             for i in range(paths):
                 _generator(words[i, 2]).random(out=remaining[i])
