@@ -7,7 +7,7 @@ import statsmodels.api as sm
 from references.forecasting import SUNSPOTS_AR9_LLF, SUNSPOTS_AR9_NOBS, SUNSPOTS_AR9_PARAMS
 from statsmodels.tsa.ar_model import AutoReg, ar_select_order
 
-from planner.forecast.ar import fit_ar, select_order
+from planner.forecast.ar import fit_ar, least_squares, select_order
 from planner.forecast.deterministic import DeterministicTerms
 from planner.forecast.strategies import direct_point, fit_direct, recursive_point
 
@@ -123,3 +123,17 @@ def test_noise_free_cosine_recovers_the_identity():
     np.testing.assert_allclose(recursive_point(fit, x, np.ones((60, 1))), future, atol=1e-8)
     direct = fit_direct(x, 2, 60)
     np.testing.assert_allclose(direct_point(direct, x, np.ones((60, 1))), future, atol=1e-8)
+
+
+def test_least_squares_equals_numpy_lstsq_also_for_singular_and_ill_conditioned_designs():
+    # Source: numpy.linalg.lstsq (SVD; the minimum-norm solution when X lacks full rank).
+    rng = np.random.default_rng(4)
+    n = 500
+    base = np.column_stack([np.ones(n), rng.poisson(4.0, (n, 6)), np.arange(n) / n])
+    y = base @ rng.normal(size=base.shape[1]) + rng.normal(size=n)
+    singular = np.column_stack([base, base[:, 1]])  # a column repeated: X'X is singular
+    ill = base.copy()
+    ill[:, 2] = ill[:, 1] + 1e-5 * rng.normal(size=n)  # nearly repeated: cond ~ 1e6
+    for X, tolerance in ((base, 1e-12), (singular, 1e-9), (ill, 1e-9)):
+        expected = np.linalg.lstsq(X, y, rcond=None)[0]
+        np.testing.assert_allclose(least_squares(X, y), expected, rtol=0, atol=tolerance)

@@ -15,8 +15,8 @@ after ``max_lag``, as statsmodels ``ar_select_order`` does, then the chosen orde
 all its usable rows. (``ar_select_order`` also tries ``p = 0``; we do not, so the two agree
 whenever its choice is at least 1.)
 
-Two engines give the same numbers: ``"statsmodels"`` (statsmodels ``OLS``, for the reported fit) and
-``"numpy"`` (``numpy.linalg.lstsq``, for the many fits inside the backtest and the bootstrap).
+Two engines give the same numbers: ``"statsmodels"`` (statsmodels ``OLS``, for the reported fit)
+and ``"numpy"`` (:func:`least_squares`, for the thousands of fits inside the backtest).
 """
 
 from __future__ import annotations
@@ -25,6 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
+from scipy import linalg
 from statsmodels.regression.linear_model import OLS
 
 from planner.errors import PlannerError
@@ -92,6 +93,34 @@ def design(
     return np.hstack([deterministic[first_target:], lags]), target
 
 
+#: Largest relative change the refinement step may make before the normal equations are
+#: judged too ill-conditioned and the SVD solution is used instead.
+_REFINED_WITHIN = 1e-10
+
+
+def least_squares(X: np.ndarray, y: np.ndarray) -> np.ndarray:
+    """OLS coefficients of ``y`` on ``X``: the normal equations X'X b = X'y solved by Cholesky
+    with one step of iterative refinement (b += (X'X)^-1 X'(y - X b)), about four times faster
+    than ``numpy.linalg.lstsq`` for these tall, narrow designs and equal to it within about
+    1e-13 when X is well conditioned. When the Cholesky factor fails (X'X singular) or the
+    refinement moves b by more than 1e-10 of its size (X ill-conditioned, where the normal
+    equations lose accuracy), ``numpy.linalg.lstsq`` (SVD, minimum norm) is used."""
+    gram = X.T @ X
+    try:
+        factor = linalg.cho_factor(gram, check_finite=False)
+    except linalg.LinAlgError:
+        return np.linalg.lstsq(X, y, rcond=None)[0]
+    coefficients = linalg.cho_solve(factor, X.T @ y, check_finite=False)
+    step = linalg.cho_solve(factor, X.T @ (y - X @ coefficients), check_finite=False)
+    coefficients = coefficients + step
+    size = np.abs(coefficients).max(initial=0.0)
+    if not np.all(np.isfinite(coefficients)) or np.abs(step).max(initial=0.0) > (
+        _REFINED_WITHIN * size
+    ):
+        return np.linalg.lstsq(X, y, rcond=None)[0]
+    return coefficients
+
+
 def fit_ar(
     values,
     order: int,
@@ -118,7 +147,7 @@ def fit_ar(
         result = OLS(y, X).fit()
         coefficients, residuals = np.asarray(result.params), np.asarray(result.resid)
     elif engine == "numpy":
-        coefficients = np.linalg.lstsq(X, y, rcond=None)[0]
+        coefficients = least_squares(X, y)
         residuals = y - X @ coefficients
     else:
         raise PlannerError(f'engine must be "statsmodels" or "numpy", got {engine!r}')
