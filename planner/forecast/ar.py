@@ -25,7 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from scipy import linalg
+from scipy.linalg import lapack
 from statsmodels.regression.linear_model import OLS
 
 from planner.errors import PlannerError
@@ -105,13 +105,11 @@ def least_squares(X: np.ndarray, y: np.ndarray) -> np.ndarray:
     1e-13 when X is well conditioned. When the Cholesky factor fails (X'X singular) or the
     refinement moves b by more than 1e-10 of its size (X ill-conditioned, where the normal
     equations lose accuracy), ``numpy.linalg.lstsq`` (SVD, minimum norm) is used."""
-    gram = X.T @ X
-    try:
-        factor = linalg.cho_factor(gram, check_finite=False)
-    except linalg.LinAlgError:
+    factor, failed = lapack.dpotrf(X.T @ X)  # Cholesky (LAPACK directly: these are small)
+    if failed:
         return np.linalg.lstsq(X, y, rcond=None)[0]
-    coefficients = linalg.cho_solve(factor, X.T @ y, check_finite=False)
-    step = linalg.cho_solve(factor, X.T @ (y - X @ coefficients), check_finite=False)
+    coefficients = lapack.dpotrs(factor, X.T @ y)[0]
+    step = lapack.dpotrs(factor, X.T @ (y - X @ coefficients))[0]
     coefficients = coefficients + step
     size = np.abs(coefficients).max(initial=0.0)
     if not np.all(np.isfinite(coefficients)) or np.abs(step).max(initial=0.0) > (
