@@ -23,7 +23,7 @@ that). A command such as ``planner run`` simulates once, so the table "first run
 process" times that call alone, each time in a fresh Python process (best of three processes).
 
 Like the command line, the script asks the C allocator to keep freed memory
-(:func:`planner.simulate.workers.keep_freed_memory`).
+(:func:`planner.allocator.keep_freed_memory`).
 
 Last, the peak memory (tracemalloc) of the fast engine for 10,000 paths x 182 days.
 """
@@ -41,6 +41,7 @@ from datetime import date
 import numpy as np
 import simpy
 
+from planner.allocator import keep_freed_memory
 from planner.pipeline import load_history, ward_inputs
 from planner.report.weekly import weekly_paths
 from planner.scenario import load_scenario
@@ -59,7 +60,6 @@ from planner.simulate.settings import WardSettings
 from planner.simulate.stays import Lognormal
 from planner.simulate.summary import summarise_daily, summarise_shifts
 from planner.simulate.ward import beds_open_by_day, simulate_ward
-from planner.simulate.workers import keep_freed_memory
 
 START = date(2024, 1, 1)
 DAYS = 91

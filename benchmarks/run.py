@@ -25,7 +25,7 @@ sys.path.insert(0, str(HERE.parent))
 import engines  # noqa: E402
 import forecast  # noqa: E402
 
-from planner.simulate.workers import keep_freed_memory  # noqa: E402
+from planner.allocator import keep_freed_memory  # noqa: E402
 
 
 def end_to_end(paths: int | None, engine: str, jobs: int) -> float:
@@ -49,9 +49,9 @@ def end_to_end(paths: int | None, engine: str, jobs: int) -> float:
 def _peak_memory_child(paths: int, weeks: int, queue) -> None:
     from dataclasses import replace
 
+    from planner.allocator import keep_freed_memory
     from planner.pipeline import run_scenario
     from planner.scenario import load_scenario
-    from planner.simulate.workers import keep_freed_memory
 
     keep_freed_memory()  # as the command line does
 

@@ -15,6 +15,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
+from planner import allocator
 from planner.errors import PlannerError
 from planner.simulate import distributed, engines, workers
 from planner.simulate.engines import (
@@ -221,9 +222,9 @@ def test_a_killed_worker_is_replaced_and_the_numbers_do_not_change():
 
 def test_freed_memory_is_kept_on_glibc_and_the_request_skipped_elsewhere(monkeypatch):
     if platform.libc_ver()[0] == "glibc":
-        assert workers.keep_freed_memory()
-    monkeypatch.setattr(workers.ctypes, "CDLL", lambda name: object())  # no mallopt
-    assert workers.keep_freed_memory() is False
+        assert allocator.keep_freed_memory()
+    monkeypatch.setattr(allocator.ctypes, "CDLL", lambda name: object())  # no mallopt
+    assert allocator.keep_freed_memory() is False
 
 
 @needs_fork

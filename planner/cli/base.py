@@ -12,6 +12,7 @@ from typing import Any
 import click
 
 from planner import __version__
+from planner.allocator import keep_freed_memory
 from planner.errors import PlannerError
 
 
@@ -169,9 +170,7 @@ def main() -> None:
     """Console-script entry point."""
     for name in BLAS_THREAD_VARIABLES:
         os.environ.setdefault(name, "1")
-    import planner.cli  # noqa: F401  (registers the commands)
-    from planner.simulate.workers import keep_freed_memory
-
     keep_freed_memory()
+    import planner.cli  # noqa: F401  (registers the commands)
 
     cli(prog_name="planner")

@@ -26,7 +26,6 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 from scipy.linalg import lapack
-from statsmodels.regression.linear_model import OLS
 
 from planner.errors import PlannerError
 from planner.forecast.lags import lag_matrix
@@ -142,6 +141,10 @@ def fit_ar(
             f"at horizon {horizon}"
         )
     if engine == "statsmodels":
+        # Imported here: statsmodels takes about a second to import, which commands that
+        # never fit (check, --help) should not pay.
+        from statsmodels.regression.linear_model import OLS
+
         result = OLS(y, X).fit()
         coefficients, residuals = np.asarray(result.params), np.asarray(result.resid)
     elif engine == "numpy":
