@@ -16,6 +16,7 @@ import pandas as pd
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+from wards import drawn_ward
 
 from planner.errors import PlannerError
 from planner.simulate.arrivals import arrival_times
@@ -190,11 +191,7 @@ def test_arrival_hours_equal_arrival_times():
     seed=st.integers(0, 2**32 - 1),
 )
 def test_engines_agree_on_random_small_wards(counts, beds, changes, policy, inpatients, seed):
-    bed_changes = tuple(
-        BedChange(date(2024, 1, 1 + first), date(2024, 1, 1 + first + length), change)
-        for first, length, change in changes
-    )
-    ward = WardSettings(beds=beds + 4 * len(changes), bed_changes=bed_changes, policy=policy)
+    ward = drawn_ward(beds, changes, policy)
     elapsed = np.linspace(0.0, 5.0, inpatients)
     assert_same(np.array(counts), START, ward, Exponential.from_mean(2.0), elapsed, PEAKED, seed)
 

@@ -13,6 +13,7 @@ import numpy as np
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
+from wards import drawn_ward
 
 from planner.errors import PlannerError
 from planner.simulate.queueing import (
@@ -335,11 +336,7 @@ def test_waiting_patients_take_beds_first_come_first_served():
     seed=st.integers(0, 2**32 - 1),
 )
 def test_properties(counts, beds, changes, policy, inpatients, seed):
-    bed_changes = tuple(
-        BedChange(date(2024, 1, 1 + first), date(2024, 1, 1 + first + length), change)
-        for first, length, change in changes
-    )
-    ward = WardSettings(beds=beds + 4 * len(changes), bed_changes=bed_changes, policy=policy)
+    ward = drawn_ward(beds, changes, policy)
     arrivals = np.array([counts, counts[::-1]])
     elapsed = np.linspace(0.0, 5.0, inpatients)
     result = simulate_ward(
@@ -353,7 +350,7 @@ def test_properties(counts, beds, changes, policy, inpatients, seed):
     for _, day in daily.groupby("path"):
         carried = np.concatenate([[inpatients], day["census"].to_numpy()[:-1]])
         assert (day["peak_occupancy"] <= np.maximum(day["beds_open"], carried)).all()
-        if not bed_changes and inpatients <= ward.beds:
+        if not ward.bed_changes and inpatients <= ward.beds:
             assert (day["peak_occupancy"] <= day["beds_open"]).all()
     shifts = result.shifts
     assert (

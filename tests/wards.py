@@ -1,0 +1,17 @@
+"""Small wards built from values drawn by the hypothesis tests of both ward engines."""
+
+from __future__ import annotations
+
+from datetime import date
+
+from planner.simulate.settings import BedChange, WardSettings
+
+
+def drawn_ward(beds: int, changes: list[tuple[int, int, int]], policy: str) -> WardSettings:
+    """A ward from 1 Jan 2024 with ``beds`` plus 4 per change (so closures can bite without
+    going below zero) and a ``BedChange`` for each (first day offset, length in days, beds)."""
+    bed_changes = tuple(
+        BedChange(date(2024, 1, 1 + first), date(2024, 1, 1 + first + length), change)
+        for first, length, change in changes
+    )
+    return WardSettings(beds=beds + 4 * len(changes), bed_changes=bed_changes, policy=policy)
