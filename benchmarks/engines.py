@@ -42,8 +42,7 @@ import numpy as np
 import simpy
 
 from planner.allocator import keep_freed_memory
-from planner.pipeline import load_history, ward_inputs
-from planner.report.weekly import weekly_paths
+from planner.runs.run import load_history, ward_inputs
 from planner.scenario import load_scenario
 from planner.simulate.engines import simulate
 from planner.simulate.fast import (
@@ -58,8 +57,9 @@ from planner.simulate.fast_records import Pieces, daily_records
 from planner.simulate.fast_streams import draw_block
 from planner.simulate.settings import WardSettings
 from planner.simulate.stays import Lognormal
-from planner.simulate.summary import summarise_daily, summarise_shifts
 from planner.simulate.ward import beds_open_by_day, simulate_ward
+from planner.summaries.daily import summarise_daily, summarise_shifts
+from planner.summaries.weekly import weekly_paths
 
 START = date(2024, 1, 1)
 DAYS = 91

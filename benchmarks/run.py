@@ -50,7 +50,7 @@ def _peak_memory_child(paths: int, weeks: int, queue) -> None:
     from dataclasses import replace
 
     from planner.allocator import keep_freed_memory
-    from planner.pipeline import run_scenario
+    from planner.runs.run import run_scenario
     from planner.scenario import load_scenario
 
     keep_freed_memory()  # as the command line does

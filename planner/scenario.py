@@ -17,7 +17,7 @@ from typing import Any
 
 from planner.errors import PlannerError
 from planner.forecast.settings import DemandAdjustment, ForecastSettings, Surge
-from planner.history import HistoryFormat
+from planner.records.files import HistoryFormat
 from planner.schema import TABLES, TOP
 from planner.schema_checks import validate
 from planner.simulate.settings import (
@@ -221,8 +221,10 @@ def _forecast(document: dict[str, Any], where: str) -> ForecastSettings:
         holiday_country=values["holiday_country"],
         residuals=values["residuals"],
         refit=values["refit"],
+        refit_series=values["refit_series"],
         backtest_origins=values["backtest_origins"],
         backtest_every=values["backtest_every_days"],
+        backtest_paths=values["backtest_paths"],
         demand=demand,
     )
 

@@ -1,7 +1,8 @@
 """The scenario file's keys: types, defaults, limits and documentation in one table.
 
 :data:`TOP` and :data:`TABLES` are the single source of truth:
-:func:`planner.schema_checks.validate` checks a parsed TOML document against them, and
+:func:`planner.schema_checks.validate` checks a parsed TOML document against them,
+:func:`choices` gives the allowed values of a key to the code that acts on them, and
 :func:`document` renders them as the key reference in docs/scenario.md.
 """
 
@@ -159,6 +160,15 @@ TABLES = (
                 "Refit the recursive model on bootstrap series (adds parameter uncertainty).",
             ),
             Key(
+                "refit_series",
+                "int",
+                50,
+                "Bootstrap series the recursive model is refitted on with refit = true; "
+                "sample path i uses refit i mod this number.",
+                "series",
+                minimum=1,
+            ),
+            Key(
                 "backtest_origins",
                 "int",
                 26,
@@ -167,6 +177,15 @@ TABLES = (
             ),
             Key(
                 "backtest_every_days", "int", 7, "Days between backtest origins.", "days", minimum=1
+            ),
+            Key(
+                "backtest_paths",
+                "int",
+                200,
+                "Sample paths per origin and strategy in the backtest (fewer when the run "
+                "has fewer paths).",
+                "paths",
+                minimum=1,
             ),
         ),
     ),
@@ -329,6 +348,16 @@ TABLES = (
         ),
     ),
 )
+
+
+_KEYS = {key.name: key for key in TOP} | {
+    f"{table.name}.{key.name}": key for table in TABLES for key in table.keys
+}
+
+
+def choices(name: str) -> tuple[str, ...]:
+    """Allowed values of the key ``name`` ("engine" in [simulation] is "simulation.engine")."""
+    return _KEYS[name].choices
 
 
 def document() -> str:

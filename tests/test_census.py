@@ -8,8 +8,8 @@ import time
 import numpy as np
 import pandas as pd
 
-from planner.census import census_history, census_series
-from planner.history import inpatients_at
+from planner.records.census import census_history, census_series
+from planner.records.ward_history import inpatients_at
 
 
 def _episodes(rows):
@@ -65,7 +65,8 @@ def test_matches_a_brute_force_count():
         table["date"], table["census"], table["peak_occupancy"], strict=True
     ):
         midnight = (day + pd.Timedelta(days=1)).to_datetime64()
-        # Source: the definition, counted patient by patient; and planner.history.inpatients_at.
+        # Source: the definition, counted patient by patient; and
+        # planner.records.ward_history.inpatients_at.
         assert census == np.sum((a < midnight) & (d > midnight))
         assert census == inpatients_at(episodes, pd.Timestamp(midnight)).size
         start = day.to_datetime64()

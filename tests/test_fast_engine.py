@@ -1,8 +1,8 @@
 """The fast (numpy) ward engine against the SimPy ward model and queueing theory.
 
-With the default ("spawned") streams both engines draw the same arrivals and stays for the
-same seed, and the bed rules are deterministic given those times, so the tables must be equal
-path by path, not merely close. Statistical checks use across-path (replicate) standard errors
+Both engines draw the same arrivals and stays for the same seed, and the bed rules are
+deterministic given those times, so the tables must be equal path by path, not merely close.
+Statistical checks use across-path (replicate) standard errors
 with a 4 SE tolerance (Source: Morris, White & Crowther, Stat. Med. 38 (2019); Law, Simulation
 Modeling and Analysis, ch. 9).
 """
@@ -18,9 +18,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from wards import drawn_ward
 
-from planner.errors import PlannerError
 from planner.simulate.arrivals import arrival_times
-from planner.simulate.fast import arrival_hours, by_slot, simpy_clock, simulate_ward_fast
+from planner.simulate.fast import arrival_rows, by_slot, simpy_clock, simulate_ward_fast
+from planner.simulate.model import WardModel
 from planner.simulate.queueing import erlang_b, erlang_c
 from planner.simulate.settings import BedChange, Shift, StaffingSettings, WardSettings
 from planner.simulate.stays import Exponential, Gamma, Lognormal, Weibull
@@ -89,7 +89,7 @@ def test_same_tables_as_simpy_model(policy, beds, changes, inpatients):
     arrivals = poisson_paths(2, 30, 35, 4.5)
     elapsed = np.linspace(0.0, 9.0, inpatients)
     stays = Lognormal.from_mean_sd(5.0, 4.0)
-    fast = assert_same(arrivals, START, ward, stays, elapsed, PEAKED, 2)
+    fast = assert_same(arrivals, WardModel(START, ward, stays, elapsed, PEAKED), 2)
     blocked = "waited" if policy == "wait" else "diverted"
     assert fast.daily[blocked].sum() > 0  # the bed rules were exercised
 
@@ -105,7 +105,9 @@ def test_same_tables_with_recorded_stays(policy):
     stays = KaplanMeierStays(durations, observed)
     ward = WardSettings(beds=18, bed_changes=CLOSURES, policy=policy)
     arrivals = poisson_paths(9, 25, 30, 4.5)
-    fast = assert_same(arrivals, START, ward, stays, np.linspace(0.0, 30.0, 16), PEAKED, 9)
+    fast = assert_same(
+        arrivals, WardModel(START, ward, stays, np.linspace(0.0, 30.0, 16), PEAKED), 9
+    )
     blocked = "waited" if policy == "wait" else "diverted"
     assert fast.daily[blocked].sum() > 0
 
@@ -114,7 +116,9 @@ def test_same_staffing_tables_with_three_shifts():
     ward = WardSettings(beds=24, staffing=THREE_SHIFTS, bed_changes=ESCALATION)
     arrivals = poisson_paths(3, 20, 28, 5.0)
     fast = assert_same(
-        arrivals, START, ward, Gamma.from_mean_sd(5, 3), np.linspace(0, 6, 20), UNIFORM, 3
+        arrivals,
+        WardModel(START, ward, Gamma.from_mean_sd(5, 3), np.linspace(0, 6, 20), UNIFORM),
+        3,
     )
     assert (fast.shifts["shortfall"] > 0).any()
 
@@ -131,8 +135,8 @@ def test_same_staffing_tables_for_any_shift_times(early, late):
     )
     ward = WardSettings(beds=20, staffing=staffing, bed_changes=CLOSURES)
     arrivals = poisson_paths(8, 12, 21, 4.5)
-    fast = assert_same(arrivals, START, ward, Lognormal.from_mean_sd(5, 4), np.linspace(0, 7, 15),
-                       PEAKED, 8)  # fmt: skip
+    model = WardModel(START, ward, Lognormal.from_mean_sd(5, 4), np.linspace(0, 7, 15), PEAKED)
+    fast = assert_same(arrivals, model, 8)
     assert (fast.shifts["shortfall"] > 0).any()
 
 
@@ -142,8 +146,10 @@ def test_same_result_when_chunked_and_seeded_by_sequence():
     ward = WardSettings(beds=15)
     stays = Weibull.from_mean_sd(4, 3)
     elapsed = np.array([1.0, 2.0, 7.0])
-    tail = assert_same(arrivals[5:], START, ward, stays, elapsed, UNIFORM, seed, first_path=5)
-    whole = simulate_ward_fast(arrivals, START, ward, stays, elapsed, UNIFORM, seed)
+    tail = assert_same(
+        arrivals[5:], WardModel(START, ward, stays, elapsed, UNIFORM), seed, first_path=5
+    )
+    whole = simulate_ward_fast(arrivals, WardModel(START, ward, stays, elapsed, UNIFORM), seed)
     np.testing.assert_array_equal(whole.daily.iloc[5 * 20 :].to_numpy(), tail.daily.to_numpy())
 
 
@@ -154,7 +160,9 @@ def test_closing_beds_moves_nobody_in_both_engines():
     ward = WardSettings(
         beds=10, policy="divert", bed_changes=(BedChange(date(2024, 1, 2), date(2024, 1, 10), -5),)
     )
-    fast = assert_same(np.full((1, 12), 2), START, ward, FixedStay(4.5), np.zeros(10), UNIFORM, 1)
+    fast = assert_same(
+        np.full((1, 12), 2), WardModel(START, ward, FixedStay(4.5), np.zeros(10), UNIFORM), 1
+    )
     daily = fast.daily
     np.testing.assert_array_equal(daily["census"][:4], 10)
     np.testing.assert_array_equal(daily["bed_admissions"][:4], 0)
@@ -164,19 +172,22 @@ def test_closing_beds_moves_nobody_in_both_engines():
 
 def test_first_come_first_served_worked_example():
     # 1 bed, 1-day stays, 3 arrivals on day 0: the queue holds 2, then 1, then 0 at midnight.
-    fast = assert_same(np.array([[3, 0, 0, 0, 0]]), START, WardSettings(beds=1), FixedStay(1.0),
-                       NONE_IN, UNIFORM, 4)  # fmt: skip
+    model = WardModel(START, WardSettings(beds=1), FixedStay(1.0), NONE_IN, UNIFORM)
+    fast = assert_same(np.array([[3, 0, 0, 0, 0]]), model, 4)
     assert fast.daily["queue"].tolist() == [2, 1, 0, 0, 0]
     assert fast.daily["bed_admissions"].tolist() == [1, 1, 1, 0, 0]
 
 
-def test_arrival_hours_equal_arrival_times():
-    # The vectorised arrival times use the same uniforms as Generator.choice (the reference).
+def test_arrival_rows_equal_arrival_times():
+    # The vectorised arrival times use the same uniforms as Generator.choice (the reference):
+    # the first half picks each admission's hour of day, the second the time within the hour.
     counts = np.array([3, 0, 7, 1, 12])
+    total = counts.sum()
     for seed in range(20):
         expected = arrival_times(np.random.default_rng(seed), counts, PEAKED)
-        uniforms = np.random.default_rng(seed).random(2 * counts.sum())
-        np.testing.assert_array_equal(arrival_hours(uniforms, counts, PEAKED), expected)
+        uniforms = np.random.default_rng(seed).random(2 * total)
+        rows = arrival_rows(uniforms[None, :total], uniforms[None, total:], counts[None], PEAKED)
+        np.testing.assert_array_equal(rows[0], expected)
 
 
 @settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
@@ -193,7 +204,9 @@ def test_arrival_hours_equal_arrival_times():
 def test_engines_agree_on_random_small_wards(counts, beds, changes, policy, inpatients, seed):
     ward = drawn_ward(beds, changes, policy)
     elapsed = np.linspace(0.0, 5.0, inpatients)
-    assert_same(np.array(counts), START, ward, Exponential.from_mean(2.0), elapsed, PEAKED, seed)
+    assert_same(
+        np.array(counts), WardModel(START, ward, Exponential.from_mean(2.0), elapsed, PEAKED), seed
+    )
 
 
 # --- Queueing theory on the fast engine -----------------------------------------------------------
@@ -210,7 +223,6 @@ def blocked_share(result, column: str, warmup: int) -> tuple[float, float]:
     return float(shares.mean()), float(shares.std(ddof=1) / np.sqrt(paths))
 
 
-@pytest.mark.parametrize("streams", ["spawned", "counter"])
 @pytest.mark.parametrize(
     ("beds", "rate", "stays"),
     [
@@ -218,10 +230,10 @@ def blocked_share(result, column: str, warmup: int) -> tuple[float, float]:
         (5, 1.0, Gamma.from_mean_sd(3.0, 4.0)),  # a = 3
     ],
 )
-def test_fast_divert_share_is_erlang_b(beds, rate, stays, streams):
+def test_fast_divert_share_is_erlang_b(beds, rate, stays):
     arrivals = poisson_paths(31, 1000, 120, rate)
     ward = WardSettings(beds=beds, policy="divert")
-    result = simulate_ward_fast(arrivals, START, ward, stays, NONE_IN, UNIFORM, 31, streams=streams)
+    result = simulate_ward_fast(arrivals, WardModel(START, ward, stays, NONE_IN, UNIFORM), 31)
     mean, se = blocked_share(result, "diverted", warmup=30)
     # Source: Erlang B (Erlang 1917), B(10, 8) and B(5, 3) = 81/736; insensitivity to the stay
     # distribution beyond its mean (Sevastyanov 1957).
@@ -234,68 +246,10 @@ def test_fast_wait_share_is_erlang_c():
     arrivals = poisson_paths(32, 600, 120, 1.0)
     ward = WardSettings(beds=5, policy="wait")
     stays = Exponential.from_mean(2.5)
-    result = simulate_ward_fast(arrivals, START, ward, stays, NONE_IN, UNIFORM, 32)
+    result = simulate_ward_fast(arrivals, WardModel(START, ward, stays, NONE_IN, UNIFORM), 32)
     mean, se = blocked_share(result, "waited", warmup=30)
     # Source: Erlang C, C(5, 2.5) = 0.1303713 (REFERENCES.md).
     assert abs(mean - erlang_c(5, 2.5)) < 4 * se, (mean, se)
-
-
-# --- Counter-based streams ----------------------------------------------------------------------
-
-
-def test_counter_streams_do_not_depend_on_chunks():
-    arrivals = poisson_paths(5, 12, 25, 5.0)
-    ward = WardSettings(beds=16, bed_changes=CLOSURES)
-    arguments = (START, ward, Lognormal.from_mean_sd(5, 4), np.linspace(0, 8, 14), UNIFORM, 5)
-    whole = simulate_ward_fast(arrivals, *arguments, streams="counter")
-    head = simulate_ward_fast(arrivals[:7], *arguments, streams="counter")
-    tail = simulate_ward_fast(arrivals[7:], *arguments, streams="counter", first_path=7)
-    joined = pd.concat([head.daily, tail.daily], ignore_index=True)
-    pd.testing.assert_frame_equal(joined, whole.daily, check_exact=True)
-    spawned = simulate_ward_fast(arrivals, *arguments)
-    assert not spawned.daily.equals(whole.daily)  # other numbers, same distributions
-
-
-def path_means(result) -> dict[str, np.ndarray]:
-    """Per path: mean census, share of days with no free bed, wait hours, short shifts."""
-    daily, shifts = result.daily, result.shifts
-    paths = daily["path"].nunique()
-
-    def per_path(values):
-        return np.asarray(values, dtype=float).reshape(paths, -1).mean(axis=1)
-
-    return {
-        "census": per_path(daily["census"]),
-        "no_bed": per_path((daily["waited"] + daily["diverted"]) > 0),
-        "wait_hours": per_path(daily["wait_hours"]),
-        "short": per_path(shifts["shortfall"] > 0),
-    }
-
-
-def test_counter_streams_agree_with_spawned_within_monte_carlo_error():
-    # Other random numbers, same model: means across paths agree within 4 SE of the difference
-    # of two independent samples (Source: Morris, White & Crowther 2019, replicate SEs).
-    arrivals = poisson_paths(6, 800, 42, 4.6)
-    ward = WardSettings(beds=24, bed_changes=ESCALATION)
-    arguments = (START, ward, Lognormal.from_mean_sd(5, 4.4), np.linspace(0, 9, 20), PEAKED, 6)
-    spawned = path_means(simulate_ward_fast(arrivals, *arguments))
-    counter = path_means(simulate_ward_fast(arrivals, *arguments, streams="counter"))
-    for name in spawned:
-        a, b = spawned[name], counter[name]
-        se = np.sqrt(a.var(ddof=1) / a.size + b.var(ddof=1) / b.size)
-        assert se > 0 and abs(a.mean() - b.mean()) < 4 * se, (name, a.mean(), b.mean(), se)
-
-
-def test_bad_streams_raise():
-    with pytest.raises(PlannerError, match="streams"):
-        simulate_ward_fast(np.array([[1, 2]]), START, WardSettings(), Exponential.from_mean(3.0),
-                           NONE_IN, UNIFORM, 0, streams="global")  # fmt: skip
-
-
-def test_bad_inputs_raise_as_in_simpy_model():
-    with pytest.raises(PlannerError, match="policy"):
-        simulate_ward_fast(np.array([[1, 2]]), START, WardSettings(policy="queue"),
-                           Exponential.from_mean(3.0), NONE_IN, UNIFORM, 0)  # fmt: skip
 
 
 def test_slot_layout_and_simpy_clock_equal_plain_numpy():

@@ -54,7 +54,7 @@ def test_generators_from_words_draw_the_spawned_streams():
     order = np.array([2, 3, 0, 1])
     elapsed = np.array([0.5, 2.0, 9.0])
     stays = Lognormal.from_mean_sd(5.0, 4.0)
-    draws = draw_block("spawned", seed, 10, totals, order, stays, elapsed)
+    draws = draw_block(seed, 10, totals, order, stays, elapsed)
     for row, i in enumerate(order):
         children = [np.random.default_rng(s) for s in numpy_words_seeds(seed, 10 + i)]
         n = totals[i]
@@ -90,7 +90,7 @@ def test_remaining_stays_in_bulk_equal_path_by_path(stays):
     totals = np.array([2, 4, 1])
     order = np.argsort(-totals, kind="stable")
     elapsed = np.array([0.0, 1.5, 4.0, 30.0])
-    draws = draw_block("spawned", 31, 0, totals, order, stays, elapsed)
+    draws = draw_block(31, 0, totals, order, stays, elapsed)
     for i in range(3):
         rng = np.random.default_rng(numpy_words_seeds(np.random.SeedSequence(31), i)[2])
         np.testing.assert_array_equal(draws.remaining_days[i], stays.sample_remaining(rng, elapsed))

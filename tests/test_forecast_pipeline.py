@@ -84,10 +84,6 @@ def test_tables_have_the_documented_columns(auto_result):
     assert list(table.columns) == ["date", "mean"] + QUANTILE_COLUMNS
     assert len(table) == HORIZON and table["date"].iloc[0] == pd.Timestamp("2024-07-05")
     assert (np.diff(table[QUANTILE_COLUMNS].to_numpy(), axis=1) >= 0).all()
-    weekly = auto_result.weekly_table()
-    assert list(weekly.columns) == ["week_start", "mean"] + QUANTILE_COLUMNS
-    assert len(weekly) == 13
-    assert weekly["mean"].iloc[0] == pytest.approx(auto_result.paths[:, :7].sum(1).mean())
 
 
 def test_summary_records_the_fit(auto_result):

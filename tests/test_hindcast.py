@@ -10,13 +10,14 @@ import pandas as pd
 import pytest
 from scipy import stats
 
-from planner import hindcast_scores as scores
-from planner.census import census_series
 from planner.errors import PlannerError
-from planner.hindcast import default_origins, hindcast, hindcast_origin
-from planner.pipeline import load_history
-from planner.report.hindcast_report import latest_hindcast_line, write_hindcast_files
+from planner.records.census import census_series
+from planner.report.hindcast_report import write_hindcast_files
+from planner.report.run_report import hindcast_line
+from planner.runs.hindcast import default_origins, hindcast, hindcast_origin, latest_hindcast
+from planner.runs.run import load_history
 from planner.scenario import load_scenario
+from planner.summaries import hindcast_scores as scores
 
 WEEKDAY = np.array([1.15, 1.05, 1.0, 1.0, 0.95, 0.8, 0.75])  # Monday..Sunday
 
@@ -141,13 +142,15 @@ def test_synthetic_ward_is_calibrated(tmp_path):
     # Every scored day has a recorded census, and days past the history are not scored.
     assert result.table["date"].max() <= load_history(scenario).last_day
     write_hindcast_files(result, scenario, tmp_path / "out")
-    line = latest_hindcast_line(tmp_path / "out", scenario)
+    quote = latest_hindcast([tmp_path], scenario)
+    line = hindcast_line(quote)
     rows = pd.read_csv(tmp_path / "out" / "hindcast.csv")
     held = np.mean((rows["census"] >= rows["model_lo80"]) & (rows["census"] <= rows["model_hi80"]))
+    assert quote.weeks == 104 and quote.origins == 52
     assert line.startswith("Over the last 104 weeks") and f"held {held:.0%} of days" in line
     assert "Caution" in (tmp_path / "out" / "hindcast.html").read_text()
-    other = _synthetic_ward(tmp_path, beds=61)  # another setup: no line
-    assert latest_hindcast_line(tmp_path / "out", other) is None
+    other = _synthetic_ward(tmp_path, beds=61)  # another setup: no quote
+    assert latest_hindcast([tmp_path], other) is None
 
 
 def test_same_seed_same_numbers_and_bad_arguments(tmp_path):

@@ -14,15 +14,14 @@ from hypothesis import strategies as st
 
 from planner.errors import PlannerError
 from planner.forecast.requirements import check_history_length, days_needed
-from planner.history import (
+from planner.records.files import (
     HistoryFormat,
     admissions_from_episodes,
     episodes_end,
-    inpatients_at,
     read_daily_admissions,
     read_episodes,
 )
-from planner.simulate.survival import stays_at
+from planner.records.ward_history import inpatients_at, stays_at
 
 
 def write(tmp_path, text, name="input.csv", encoding="utf-8"):
@@ -269,7 +268,7 @@ def long_ward(folder, years: int, episodes: int) -> None:
 
 PEAK_RSS = """
 import resource, sys
-from planner.pipeline import check_scenario
+from planner.runs.run import check_scenario
 print(check_scenario(sys.argv[1])[2])
 print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)
 """

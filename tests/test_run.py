@@ -12,7 +12,7 @@ import pytest
 from click.testing import CliRunner
 
 from planner.cli import cli
-from planner.pipeline import run_scenario
+from planner.runs.run import run_scenario
 from planner.scenario import load_scenario
 from planner.simulate.queueing import erlang_b
 
@@ -155,7 +155,7 @@ def test_forecast_csv_columns(ward_folder, tmp_path):
 
 
 def test_backtest_command_shows_the_backtest_that_chose_the_strategy(ward_folder):
-    from planner.pipeline import backtest_step, forecast_step, load_history
+    from planner.runs.run import backtest_step, forecast_step, load_history
 
     scenario = load_scenario(plan(ward_folder, "auto", 9, paths=60))
     settings = replace(scenario.forecast, strategy="auto", backtest_paths=60)

@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 
 from planner.errors import PlannerError
-from planner.history import HistoryFormat
+from planner.records.files import HistoryFormat
 from planner.scenario import demo_scenario_path, load_scenario
 from planner.schema import TABLES, TOP, document
 
@@ -42,6 +42,12 @@ def test_defaults(tmp_path):
     assert plan.forecast.max_lag == 28 and plan.forecast.strategy == "auto"
     assert plan.ward.policy == "wait" and plan.ward.staffing.minimum_nurses == 2
     assert plan.name == "plan"
+    assert (plan.forecast.backtest_paths, plan.forecast.refit_series) == (200, 50)
+
+
+def test_backtest_paths_and_refit_series_are_read(tmp_path):
+    plan = load_scenario(scenario(tmp_path, "[forecast]\nbacktest_paths = 60\nrefit_series = 9\n"))
+    assert (plan.forecast.backtest_paths, plan.forecast.refit_series) == (60, 9)
 
 
 def test_extends_overrides_only_what_changes(tmp_path):
@@ -74,6 +80,15 @@ def test_extends_cycle_is_refused(tmp_path):
             "beds.change[1]: end 2026-01-01 is before start 2026-02-01",
         ),
         ("[[beds.change]]\nstart = 2026-02-01\nchange = 2\n", "beds.change[1].end: required"),
+        (
+            "[[staffing.override]]\nstart = 2026-02-01\nend = 2026-01-01\nshift = 'day'\n"
+            "nurses = 3\n",
+            "staffing.override[1]: end 2026-01-01 is before start 2026-02-01",
+        ),
+        (
+            "[[demand.surge]]\nstart = 2026-02-01\nend = 2026-01-01\nfactor = 1.2\n",
+            "demand.surge[1]: end 2026-01-01 is before start 2026-02-01",
+        ),
         (
             "[[staffing.shift]]\nname = 'day'\nstart = '07:00'\nend = '19:00'\n"
             "patients_per_nurse = 0\nroster = [1,1,1,1,1,1,1]\n",

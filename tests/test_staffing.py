@@ -91,7 +91,6 @@ def test_gap_between_shifts_is_named():
         StaffingSettings(shifts=(Shift("day", 7, 19, 4, (5, 5)), Shift("night", 19, 7, 7, WEEK))),
         StaffingSettings(shifts=(Shift("day", 7, 19, 4, WEEK), Shift("day", 19, 7, 7, WEEK))),
         StaffingSettings(minimum_nurses=-1),
-        StaffingSettings(overrides=(RosterOverride(date(2024, 1, 2), date(2024, 1, 1), "day", 4),)),
         StaffingSettings(
             overrides=(RosterOverride(date(2024, 1, 1), date(2024, 1, 2), "late", 4),)
         ),

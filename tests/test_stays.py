@@ -13,6 +13,7 @@ from hypothesis import strategies as st
 from scipy import stats
 
 from planner.errors import PlannerError
+from planner.schema import choices
 from planner.simulate.settings import StaySettings
 from planner.simulate.stay_fit import StayFit, fit_stays, stay_distribution
 from planner.simulate.stays import Empirical, Exponential, Gamma, Lognormal, Weibull
@@ -283,6 +284,15 @@ def test_fitted_and_empirical_stays_with_change():
     shape, _, scale = stats.gamma.fit(x, floc=0)  # Source: scipy.stats MLE (reference library)
     d = stay_distribution(StaySettings(model="gamma", change_days=-0.5), x)
     assert d.mean == pytest.approx(shape * scale - 0.5, rel=1e-9)
+
+
+@pytest.mark.parametrize("model", choices("stay.model"))
+def test_every_model_a_scenario_can_name_is_fitted(model):
+    # The maximum-likelihood gamma and exponential and the Kaplan-Meier estimate of stays
+    # without censoring keep the sample mean; the lognormal and Weibull fits come close to it.
+    x = FAMILIES["gamma"][0].sample(rng(17), 400)
+    d = stay_distribution(StaySettings(model=model), x, np.ones(x.size, dtype=bool))
+    assert d.mean == pytest.approx(x.mean(), rel=0.1)
 
 
 def test_best_or_empirical_with_mean_and_sd_is_lognormal():

@@ -13,6 +13,7 @@ from scipy import stats
 from statsmodels.duration.survfunc import SurvfuncRight
 
 from planner.errors import PlannerError
+from planner.records.ward_history import stays_at
 from planner.simulate.settings import StaySettings
 from planner.simulate.stay_fit import (
     _censored_log_likelihood,
@@ -21,7 +22,7 @@ from planner.simulate.stay_fit import (
     stay_distribution,
 )
 from planner.simulate.stays import Empirical, Gamma, Lognormal, Weibull
-from planner.simulate.survival import KaplanMeierStays, kaplan_meier, stays_at
+from planner.simulate.survival import KaplanMeierStays, kaplan_meier
 from tests.references import survival as ref
 
 

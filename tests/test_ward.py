@@ -16,6 +16,7 @@ from hypothesis import strategies as st
 from wards import drawn_ward
 
 from planner.errors import PlannerError
+from planner.simulate.model import WardModel
 from planner.simulate.queueing import (
     erlang_b,
     erlang_c,
@@ -25,8 +26,8 @@ from planner.simulate.queueing import (
 from planner.simulate.result import DAILY_COLUMNS
 from planner.simulate.settings import BedChange, WardSettings
 from planner.simulate.stays import Exponential, Gamma, Lognormal, Weibull
-from planner.simulate.summary import summarise_daily, summarise_shifts
 from planner.simulate.ward import path_seeds, simulate_ward
+from planner.summaries.daily import summarise_daily, summarise_shifts
 
 START = date(2024, 1, 1)
 UNIFORM = np.full(24, 1 / 24)  # uniform hour profile: Poisson daily counts give a Poisson process
@@ -74,7 +75,7 @@ def blocked_share(result, column: str, warmup: int) -> tuple[float, float]:
 def check_erlang_b(beds, rate, stays, paths, days, seed):
     arrivals = poisson_paths(seed, paths, np.full(days, rate))
     ward = WardSettings(beds=beds, policy="divert")
-    result = simulate_ward(arrivals, START, ward, stays, NONE_IN, UNIFORM, seed)
+    result = simulate_ward(arrivals, WardModel(START, ward, stays, NONE_IN, UNIFORM), seed)
     mean, se = blocked_share(result, "diverted", warmup=30)
     # Source: Erlang B, B(c, lambda E[S]) (Erlang 1917); insensitivity to the stay distribution
     # beyond its mean (Sevastyanov 1957).
@@ -119,7 +120,9 @@ def test_divert_share_is_erlang_b_many_paths(beds, rate, stays):
 def test_wait_share_is_erlang_c(beds, rate, mean, paths):
     arrivals = poisson_paths(3, paths, np.full(150, rate))
     ward = WardSettings(beds=beds, policy="wait")
-    result = simulate_ward(arrivals, START, ward, Exponential.from_mean(mean), NONE_IN, UNIFORM, 3)
+    result = simulate_ward(
+        arrivals, WardModel(START, ward, Exponential.from_mean(mean), NONE_IN, UNIFORM), 3
+    )
     share, se = blocked_share(result, "waited", warmup=30)
     # Source: Erlang C, M/M/c probability of waiting (REFERENCES.md).
     expected = erlang_c(beds, rate * mean)
@@ -130,7 +133,9 @@ def test_littles_law_in_wait_mode():
     rate, days, warmup, tail = 1.6, 200, 30, 20
     stays = Lognormal.from_mean_sd(2.5, 2.0)
     arrivals = poisson_paths(5, 200, np.full(days, rate))
-    result = simulate_ward(arrivals, START, WardSettings(beds=5), stays, NONE_IN, UNIFORM, 5)
+    result = simulate_ward(
+        arrivals, WardModel(START, WardSettings(beds=5), stays, NONE_IN, UNIFORM), 5
+    )
     window = slice(warmup, days - tail)  # leave time for the last patients' waits to finish
     in_system = (per_path(result, "census", window) + per_path(result, "queue", window)).mean(1)
     admissions = per_path(result, "admissions", window).sum(1)
@@ -151,7 +156,7 @@ def check_infinite_server(paths, seed):
     stays = Lognormal.from_mean_sd(5.0, 4.0)
     arrivals = poisson_paths(seed, paths, rate)
     result = simulate_ward(
-        arrivals, START, WardSettings(beds=100_000), stays, NONE_IN, UNIFORM, seed
+        arrivals, WardModel(START, WardSettings(beds=100_000), stays, NONE_IN, UNIFORM), seed
     )
     census = per_path(result, "census", slice(None))
     # Source: Eick, Massey & Whitt (1993): m(t) = integral lambda(u) P(S > t - u) du, and the
@@ -180,7 +185,9 @@ def test_unlimited_beds_follow_infinite_server_mean_many_paths():
 def test_current_inpatients_leave_by_conditional_survival(stays):
     elapsed = np.array([0.0, 0.5, 1.0, 2.0, 3.0, 4.0, 6.0, 8.0, 12.0, 20.0] * 3)
     arrivals = np.zeros((600, 20), dtype=int)
-    result = simulate_ward(arrivals, START, WardSettings(beds=40), stays, elapsed, UNIFORM, 8)
+    result = simulate_ward(
+        arrivals, WardModel(START, WardSettings(beds=40), stays, elapsed, UNIFORM), 8
+    )
     census = per_path(result, "census", slice(None))
     # Source: conditional survival, E[in bed at t] = sum_i P(S > e_i + t) / P(S > e_i).
     expected = inpatients_remaining_mean(np.arange(1.0, 21.0), elapsed, stays.survival)
@@ -226,7 +233,9 @@ def test_conservation_and_daily_balance(policy):
     elapsed = np.linspace(0, 9, 18)
     arrivals = poisson_paths(2, 40, np.full(30, 4.5))
     ward = WardSettings(beds=20, bed_changes=CLOSURES, policy=policy)
-    result = simulate_ward(arrivals, START, ward, Lognormal.from_mean_sd(5, 4), elapsed, UNIFORM, 2)
+    result = simulate_ward(
+        arrivals, WardModel(START, ward, Lognormal.from_mean_sd(5, 4), elapsed, UNIFORM), 2
+    )
     assert_books_balance(result, inpatients=elapsed.size)
     never = "diverted" if policy == "wait" else "waited"
     assert (result.daily[never] == 0).all()
@@ -240,14 +249,16 @@ def test_same_seed_same_result_and_chunks_match():
     ward = WardSettings(beds=15)
     stays = Lognormal.from_mean_sd(5, 4)
     elapsed = np.array([1.0, 2.0, 7.0])
-    whole = simulate_ward(arrivals, START, ward, stays, elapsed, UNIFORM, 99)
-    again = simulate_ward(arrivals, START, ward, stays, elapsed, UNIFORM, 99)
-    head = simulate_ward(arrivals[:4], START, ward, stays, elapsed, UNIFORM, 99)
-    tail = simulate_ward(arrivals[4:], START, ward, stays, elapsed, UNIFORM, 99, first_path=4)
+    whole = simulate_ward(arrivals, WardModel(START, ward, stays, elapsed, UNIFORM), 99)
+    again = simulate_ward(arrivals, WardModel(START, ward, stays, elapsed, UNIFORM), 99)
+    head = simulate_ward(arrivals[:4], WardModel(START, ward, stays, elapsed, UNIFORM), 99)
+    tail = simulate_ward(
+        arrivals[4:], WardModel(START, ward, stays, elapsed, UNIFORM), 99, first_path=4
+    )
     assert whole.daily.equals(again.daily) and whole.shifts.equals(again.shifts)
     assert whole.daily.iloc[: 4 * 20].equals(head.daily)
     np.testing.assert_array_equal(whole.daily.iloc[4 * 20 :].to_numpy(), tail.daily.to_numpy())
-    other = simulate_ward(arrivals, START, ward, stays, elapsed, UNIFORM, 100)
+    other = simulate_ward(arrivals, WardModel(START, ward, stays, elapsed, UNIFORM), 100)
     assert not whole.daily.equals(other.daily)
 
 
@@ -281,7 +292,7 @@ def test_two_ward_plans_share_stays():
     runs = []
     for ward in plans:
         stays = RecordingStays(Gamma.from_mean_sd(5, 3))
-        simulate_ward(arrivals, START, ward, stays, np.array([1.0, 4.0]), UNIFORM, 7)
+        simulate_ward(arrivals, WardModel(START, ward, stays, np.array([1.0, 4.0]), UNIFORM), 7)
         runs.append(stays.drawn)
     for first, second in zip(*runs, strict=True):
         np.testing.assert_array_equal(first, second)
@@ -295,7 +306,9 @@ def test_closing_beds_moves_nobody():
     ward = WardSettings(
         beds=10, policy="divert", bed_changes=(BedChange(date(2024, 1, 2), date(2024, 1, 10), -5),)
     )
-    result = simulate_ward(arrivals, START, ward, FixedStay(4.5), np.zeros(10), UNIFORM, 1)
+    result = simulate_ward(
+        arrivals, WardModel(START, ward, FixedStay(4.5), np.zeros(10), UNIFORM), 1
+    )
     daily = result.daily
     np.testing.assert_array_equal(daily["census"][:4], 10)
     np.testing.assert_array_equal(daily["peak_occupancy"][:4], 10)
@@ -311,7 +324,7 @@ def test_waiting_patients_take_beds_first_come_first_served():
     # takes the bed; the others wait one and two days: (t1 + 24 - t2) + (t1 + 48 - t3) hours.
     arrivals = np.array([[3, 0, 0, 0, 0]])
     result = simulate_ward(
-        arrivals, START, WardSettings(beds=1), FixedStay(1.0), NONE_IN, UNIFORM, 4
+        arrivals, WardModel(START, WardSettings(beds=1), FixedStay(1.0), NONE_IN, UNIFORM), 4
     )
     daily = result.daily
     assert daily["waited"].tolist() == [2, 0, 0, 0, 0]
@@ -340,7 +353,7 @@ def test_properties(counts, beds, changes, policy, inpatients, seed):
     arrivals = np.array([counts, counts[::-1]])
     elapsed = np.linspace(0.0, 5.0, inpatients)
     result = simulate_ward(
-        arrivals, START, ward, Weibull.from_mean_sd(2, 2), elapsed, UNIFORM, seed
+        arrivals, WardModel(START, ward, Weibull.from_mean_sd(2, 2), elapsed, UNIFORM), seed
     )
     daily = result.daily
     assert (daily[["census", "peak_occupancy", "queue", "discharges"]] >= 0).all().all()
@@ -366,11 +379,9 @@ def test_shift_table_follows_occupancy():
     arrivals = poisson_paths(9, 30, np.full(14, 6.0))
     result = simulate_ward(
         arrivals,
-        START,
-        WardSettings(beds=28),
-        Lognormal.from_mean_sd(5, 4),
-        np.zeros(20),
-        UNIFORM,
+        WardModel(
+            START, WardSettings(beds=28), Lognormal.from_mean_sd(5, 4), np.zeros(20), UNIFORM
+        ),
         9,
     )
     shifts = result.shifts.set_index(["path", "date", "shift"])
@@ -389,7 +400,9 @@ def test_tidy_tables_are_the_arrays_row_by_row():
     arrivals = poisson_paths(12, 3, np.full(5, 5.0))
     ward = WardSettings(beds=6, bed_changes=CLOSURES)
     stays = Exponential.from_mean(2.0)
-    result = simulate_ward(arrivals, START, ward, stays, np.ones(4), UNIFORM, 12, first_path=7)
+    result = simulate_ward(
+        arrivals, WardModel(START, ward, stays, np.ones(4), UNIFORM), 12, first_path=7
+    )
     daily = result.daily
     assert list(daily.columns) == ["path", "date", *DAILY_COLUMNS]
     assert daily["date"].dtype == "datetime64[s]" and daily["wait_hours"].dtype == "float64"
@@ -412,7 +425,7 @@ def test_summaries_across_paths():
     arrivals = poisson_paths(10, 200, np.full(10, 6.0))
     ward = WardSettings(beds=25, policy="divert")
     result = simulate_ward(
-        arrivals, START, ward, Lognormal.from_mean_sd(5, 4), np.zeros(22), UNIFORM, 10
+        arrivals, WardModel(START, ward, Lognormal.from_mean_sd(5, 4), np.zeros(22), UNIFORM), 10
     )
     daily = summarise_daily(result)
     assert len(daily) == 10 and (daily["beds_open"] == 25).all()
@@ -433,22 +446,23 @@ def test_summaries_across_paths():
 @pytest.mark.parametrize(
     ("change", "message"),
     [
-        ({"ward": WardSettings(policy="queue")}, "policy"),
-        ({"ward": WardSettings(beds=2, bed_changes=(BedChange(START, START, -3),))}, "negative"),
+        (
+            {"settings": WardSettings(beds=2, bed_changes=(BedChange(START, START, -3),))},
+            "negative",
+        ),
         ({"hour_profile": np.full(24, 0.05)}, "hour_profile"),
         ({"arrivals": np.array([[1, -1]])}, "arrivals"),
         ({"inpatients_elapsed": np.array([-1.0])}, "inpatients_elapsed"),
     ],
 )
 def test_bad_inputs_raise(change, message):
-    arguments = {
-        "arrivals": np.array([[1, 2]]),
+    model = {
         "start": START,
-        "ward": WardSettings(),
+        "settings": WardSettings(),
         "stays": Exponential.from_mean(3.0),
         "inpatients_elapsed": NONE_IN,
         "hour_profile": UNIFORM,
-        "seed": 0,
-    } | change
+    }
+    arrivals = change.pop("arrivals", np.array([[1, 2]]))
     with pytest.raises(PlannerError, match=message):
-        simulate_ward(**arguments)
+        simulate_ward(arrivals, WardModel(**(model | change)), 0)

@@ -5,8 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from planner.report.weekly import any_shortfall, mean_se, share_se, weekly_paths, weekly_table
 from planner.simulate.result import PATH_DAILY, WardResult
+from planner.summaries.weekly import any_shortfall, mean_se, share_se, weekly_paths, weekly_table
 
 START = pd.Timestamp("2026-11-30")
 

@@ -1,7 +1,31 @@
 """Command-line interface: thin commands that parse options, call one library function and
-print or write its result. Every user error is one line on stderr and exit status 2."""
+print or write its result. Every user error is one line on stderr and exit status 2.
 
-from planner.cli import forecasting, planning  # noqa: F401  (registers the commands)
-from planner.cli.base import cli, main
+The group and shared options are in :mod:`planner.cli.base`, the commands in
+:mod:`planner.cli.forecasting` and :mod:`planner.cli.planning`; they are added to the group
+here."""
+
+import os
+
+from planner.allocator import keep_freed_memory
+from planner.cli.base import cli
+from planner.cli.forecasting import backtest, check, forecast
+from planner.cli.planning import compare, hindcast, run, simulate
+
+for command in (check, forecast, backtest, simulate, run, compare, hindcast):
+    cli.add_command(command)
+
+#: BLAS threads: the matrices here are small, and threaded BLAS on them is slower, badly so
+#: on a busy machine; parallel work is done across paths instead. A user's setting wins.
+BLAS_THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
+
+
+def main() -> None:
+    """Console-script entry point."""
+    for name in BLAS_THREAD_VARIABLES:
+        os.environ.setdefault(name, "1")
+    keep_freed_memory()
+    cli(prog_name="planner")
+
 
 __all__ = ["cli", "main"]

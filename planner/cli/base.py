@@ -12,8 +12,8 @@ from typing import Any
 import click
 
 from planner import __version__
-from planner.allocator import keep_freed_memory
 from planner.errors import PlannerError
+from planner.schema import choices
 
 
 class UserError(click.ClickException):
@@ -56,7 +56,7 @@ paths_option = click.option(
 )
 engine_option = click.option(
     "--engine",
-    type=click.Choice(["auto", "simpy", "fast"]),
+    type=click.Choice(choices("simulation.engine")),
     default=None,
     help="Simulation engine (default: the scenario's, normally auto). Same numbers either way.",
 )
@@ -105,7 +105,7 @@ def cli() -> None:
 
 
 def load_plan(scenario_path: Path | None):
-    from planner.pipeline import load_history
+    from planner.runs.run import load_history
     from planner.scenario import load_scenario
 
     scenario = load_scenario(scenario_path)
@@ -123,24 +123,21 @@ def worker_count(jobs: int | None) -> int:
     return jobs if jobs is not None else max(1, os.cpu_count() or 1)
 
 
-def run_plan(plan, history, paths, seed, engine, jobs, scheduler):
-    """Forecast, simulate and summarise ``plan`` (its ``history`` read already) with the
-    command's options."""
-    from planner.pipeline import run_scenario
+def run_options(paths, seed, engine, jobs, scheduler, label: str = "simulating"):
+    """The run options of a command: its --paths, --seed, --engine, --jobs and --scheduler,
+    with a progress bar when stderr is a terminal."""
+    from planner.simulate.model import RunOptions
+
+    return RunOptions(paths, seed, engine, worker_count(jobs), scheduler, progress_bar(label))
+
+
+def run_plan(plan, history, options):
+    """Forecast, simulate and summarise ``plan`` (its ``history`` read already)."""
+    from planner.runs.run import run_scenario
 
     if sys.stderr.isatty():
         click.echo(f"{plan.name}: forecasting admissions (fit, backtest, sample paths)", err=True)
-    return run_scenario(
-        plan,
-        paths,
-        seed,
-        progress_bar("simulating"),
-        None,
-        engine or plan.engine,
-        worker_count(jobs),
-        scheduler,
-        history,
-    )
+    return run_scenario(plan, options, history=history)
 
 
 def progress_bar(label: str):
@@ -159,18 +156,3 @@ def progress_bar(label: str):
             state["bar"].__exit__(None, None, None)
 
     return update
-
-
-#: BLAS threads: the matrices here are small, and threaded BLAS on them is slower, badly so
-#: on a busy machine; parallel work is done across paths instead. A user's setting wins.
-BLAS_THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
-
-
-def main() -> None:
-    """Console-script entry point."""
-    for name in BLAS_THREAD_VARIABLES:
-        os.environ.setdefault(name, "1")
-    keep_freed_memory()
-    import planner.cli  # noqa: F401  (registers the commands)
-
-    cli(prog_name="planner")

@@ -7,7 +7,6 @@ from pathlib import Path
 import click
 
 from planner.cli.base import (
-    cli,
     load_plan,
     output_options,
     output_target,
@@ -16,27 +15,27 @@ from planner.cli.base import (
 )
 
 
-@cli.command()
+@click.command()
 @scenario_argument
 @user_errors
 def check(scenario: Path | None) -> None:
     """Validate a scenario file and its input files without running anything."""
-    from planner.pipeline import check_scenario
+    from planner.runs.run import check_scenario
 
     for line in check_scenario(scenario):
         click.echo(line)
 
 
-@cli.command()
+@click.command()
 @scenario_argument
 @output_options
 @user_errors
 def forecast(scenario: Path | None, out, overwrite, paths, seed) -> None:
     """Forecast daily admissions as sample paths: forecast.csv and a fan chart."""
     from planner.outputs import atomic_folder
-    from planner.pipeline import forecast_step
     from planner.report.charts import admissions_fan
     from planner.report.files import write_csv
+    from planner.runs.run import forecast_step
 
     plan, history = load_plan(scenario)
     target = output_target(out, plan, "forecast")
@@ -55,15 +54,15 @@ def forecast(scenario: Path | None, out, overwrite, paths, seed) -> None:
     click.echo(f"wrote {target}/forecast.csv and admissions.png")
 
 
-@cli.command()
+@click.command()
 @scenario_argument
 @output_options
 @user_errors
 def backtest(scenario: Path | None, out, overwrite, paths, seed) -> None:
     """Rolling-origin backtest of the forecast strategies: backtest.csv."""
     from planner.outputs import atomic_folder
-    from planner.pipeline import backtest_step
     from planner.report.files import write_csv
+    from planner.runs.run import backtest_step
 
     plan, history = load_plan(scenario)
     target = output_target(out, plan, "backtest")

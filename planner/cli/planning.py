@@ -7,13 +7,13 @@ from pathlib import Path
 import click
 
 from planner.cli.base import (
-    cli,
     engine_option,
     jobs_option,
     load_plan,
     output_options,
     output_target,
     progress_bar,
+    run_options,
     run_plan,
     scenario_argument,
     simulation_options,
@@ -22,7 +22,7 @@ from planner.cli.base import (
 )
 
 
-@cli.command()
+@click.command()
 @scenario_argument
 @output_options
 @simulation_options
@@ -31,14 +31,13 @@ def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, s
     """Forecast and simulate the ward: daily.csv and shifts.csv."""
     from planner.outputs import atomic_folder
     from planner.report.files import write_csv
-    from planner.simulate import summarise_daily, summarise_shifts
 
     plan, history = load_plan(scenario)
     target = output_target(out, plan, "simulate")
     with atomic_folder(target, overwrite) as folder:
-        run = run_plan(plan, history, paths, seed, engine, jobs, scheduler)
-        write_csv(summarise_daily(run.ward), folder / "daily.csv")
-        write_csv(summarise_shifts(run.ward), folder / "shifts.csv")
+        run = run_plan(plan, history, run_options(paths, seed, engine, jobs, scheduler))
+        write_csv(run.summary.daily, folder / "daily.csv")
+        write_csv(run.summary.shifts, folder / "shifts.csv")
     patients = int(run.forecast.paths.sum())
     click.echo(
         f"simulated {run.paths} paths, {patients} patients in {run.timings['simulate_s']:.1f} s"
@@ -46,7 +45,7 @@ def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, s
     click.echo(f"wrote {target}/daily.csv and shifts.csv")
 
 
-@cli.command()
+@click.command()
 @scenario_argument
 @output_options
 @simulation_options
@@ -54,28 +53,24 @@ def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, s
 def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, scheduler) -> None:
     """Forecast, simulate and report: weekly.csv, charts, report.html, run.json."""
     from planner.outputs import DEFAULT_ROOT, atomic_folder
-    from planner.report.hindcast_report import find_latest_hindcast
     from planner.report.html import CAUTION
     from planner.report.run_report import headline, terminal_table, write_run_files
-    from planner.report.weekly import weekly_table
-    from planner.simulate import summarise_daily, summarise_shifts
+    from planner.runs.hindcast import latest_hindcast
 
     plan, history = load_plan(scenario)
     target = output_target(out, plan, "run")
     with atomic_folder(target, overwrite) as folder:
-        result = run_plan(plan, history, paths, seed, engine, jobs, scheduler)
-        hindcast = find_latest_hindcast([DEFAULT_ROOT, target.parent], plan)
-        write_run_files(
-            result, folder, summarise_daily(result.ward), summarise_shifts(result.ward), hindcast
-        )
+        result = run_plan(plan, history, run_options(paths, seed, engine, jobs, scheduler))
+        hindcast = latest_hindcast([DEFAULT_ROOT, target.parent], plan)
+        write_run_files(result, folder, hindcast)
     click.echo(f"{plan.name}: {result.paths} paths from {result.history.start.date()}")
-    click.echo(terminal_table(weekly_table(result.weekly)))
+    click.echo(terminal_table(result.summary.weekly))
     click.echo(headline(result))
     click.echo(CAUTION)
     click.echo(f"wrote {target}/report.html")
 
 
-@cli.command()
+@click.command()
 @click.argument(
     "scenarios", nargs=-1, required=True, type=click.Path(dir_okay=False, path_type=Path)
 )
@@ -87,9 +82,9 @@ def compare(
 ) -> None:
     """Compare ward plans (the first is the reference) with common random numbers:
     comparison.csv, costs.csv, a chart and comparison.html."""
-    from planner.compare import compare_scenarios
     from planner.outputs import atomic_folder, default_folder
-    from planner.report.compare_report import summary_table, write_compare_files
+    from planner.report.compare_report import write_compare_files
+    from planner.runs.compare import compare_scenarios
     from planner.scenario import load_scenario
 
     first = load_scenario(scenarios[0])
@@ -99,12 +94,10 @@ def compare(
         return progress_bar(f"simulating {label}")
 
     with atomic_folder(target, overwrite) as folder:
-        result = compare_scenarios(
-            list(scenarios), paths, seed, progress, engine, worker_count(jobs), scheduler
-        )
+        options = run_options(paths, seed, engine, jobs, scheduler)
+        result = compare_scenarios(list(scenarios), options, progress)
         write_compare_files(result, folder)
-    summary = summary_table(result)
-    click.echo(summary.to_string(index=False, float_format=lambda v: f"{v:.3f}"))
+    click.echo(result.glance.to_string(index=False, float_format=lambda v: f"{v:.3f}"))
     if result.costs is not None:
         click.echo(result.costs.to_string(index=False, float_format=lambda v: f"{v:,.1f}"))
     click.echo(f"wrote {target}/comparison.html")
@@ -115,7 +108,7 @@ HINDCAST_WEEKS = 26
 HINDCAST_PATHS = 300
 
 
-@cli.command()
+@click.command()
 @scenario_argument
 @output_options
 @click.option(
@@ -140,9 +133,9 @@ def hindcast(
 ) -> None:
     """Start the setup at past dates with only what was known then and compare its census
     forecast with the census that happened: hindcast.csv, charts, hindcast.html."""
-    from planner.hindcast import hindcast as run_hindcast
     from planner.outputs import atomic_folder
     from planner.report.hindcast_report import headline, write_hindcast_files
+    from planner.runs.hindcast import hindcast as run_hindcast
 
     plan, _ = load_plan(scenario)
     target = output_target(out, plan, "hindcast")

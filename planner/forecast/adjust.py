@@ -22,8 +22,6 @@ def demand_multipliers(dates: pd.DatetimeIndex, demand) -> np.ndarray:
     for surge in demand.surges:
         if surge.factor < 0:
             raise PlannerError(f"demand.surges: factor must be >= 0, got {surge.factor}")
-        if pd.Timestamp(surge.end) < pd.Timestamp(surge.start):
-            raise PlannerError(f"demand.surges: end {surge.end} is before start {surge.start}")
         inside = (days >= pd.Timestamp(surge.start)) & (days <= pd.Timestamp(surge.end))
         multiplier[np.asarray(inside)] *= surge.factor
     return multiplier

@@ -32,12 +32,6 @@ def mase_scale(training, m: int = 7) -> float:
     return float(np.mean(np.abs(training[m:] - training[:-m])))
 
 
-def mase(actual, forecast, training, m: int = 7) -> float:
-    """Mean absolute scaled error; ``nan`` when the training data give a zero scale."""
-    scale = mase_scale(training, m)
-    return mae(actual, forecast) / scale if scale > 0 else float("nan")
-
-
 def pinball_loss(actual, quantiles, levels) -> float:
     """Mean pinball loss; ``quantiles`` has shape ``(days, len(levels))``."""
     actual = np.asarray(actual, dtype=float)[:, None]

@@ -20,23 +20,17 @@ from planner.forecast.bootstrap import to_counts
 from planner.forecast.deterministic import terms_for_history
 from planner.forecast.paths import model_paths
 from planner.forecast.result import BacktestResult, ForecastResult, ForecastSummary
+from planner.schema import choices
 
 HISTORY_TAIL_DAYS = 182
 
 
 def check_settings(settings, horizon: int, n_paths: int) -> None:
     """Raise PlannerError naming the first bad value."""
-    if settings.strategy not in ("recursive", "direct", "seasonal_naive", "auto"):
-        raise PlannerError(
-            f'strategy must be "recursive", "direct", "seasonal_naive" or "auto", '
-            f"got {settings.strategy!r}"
-        )
-    if settings.criterion not in ("aic", "bic"):
-        raise PlannerError(f'criterion must be "aic" or "bic", got {settings.criterion!r}')
-    if settings.residuals not in ("in_sample", "backtest"):
-        raise PlannerError(
-            f'residuals must be "in_sample" or "backtest", got {settings.residuals!r}'
-        )
+    for name in ("strategy", "criterion", "residuals"):
+        allowed, value = choices(f"forecast.{name}"), getattr(settings, name)
+        if value not in allowed:
+            raise PlannerError(f"{name} must be one of {', '.join(allowed)}, got {value!r}")
     if settings.max_lag < 1:
         raise PlannerError(f"max_lag must be >= 1, got {settings.max_lag}")
     if settings.order is not None and settings.order < 0:

@@ -2,9 +2,6 @@
 
 ``ForecastResult.table()`` columns: ``date`` (forecast day), ``mean`` (mean admissions over
 paths), ``q05 .. q95`` (quantiles of the day's admissions over paths, patients per day).
-``ForecastResult.weekly_table()`` columns: ``week_start`` (first day of a 7-day block counted
-from the first forecast day; only complete blocks), ``mean``, ``q05 .. q95`` of the block's
-total admissions (patients per week).
 ``BacktestResult.table`` columns: ``strategy``, ``horizon_week`` (1 = forecast days 1-7, ...;
 0 = all days of the horizon together), ``days`` (scored origin-days), ``mae``, ``rmse``,
 ``mase``, ``pinball``, ``coverage_80``, ``coverage_95``, ``interval_score_80``.
@@ -84,12 +81,3 @@ class ForecastResult:
             frame[quantile_column(level)] = values
         return frame
 
-    def weekly_table(self) -> pd.DataFrame:
-        """One row per complete 7-day block: week_start, mean, q05 .. q95 of weekly totals."""
-        weeks = self.horizon // 7
-        totals = self.paths[:, : weeks * 7].reshape(self.paths.shape[0], weeks, 7).sum(axis=2)
-        frame = pd.DataFrame({"week_start": self.dates[: weeks * 7 : 7], "mean": totals.mean(0)})
-        quantiles = np.quantile(totals, self.quantile_levels, axis=0).reshape(-1, weeks)
-        for level, values in zip(self.quantile_levels, quantiles, strict=True):
-            frame[quantile_column(level)] = values
-        return frame

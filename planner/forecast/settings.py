@@ -37,9 +37,11 @@ class ForecastSettings:
         of history). fourier_pairs: number of sine/cosine pairs for the annual cycle.
     trend: a linear time trend. holiday_dates / holiday_country: public-holiday indicator.
     residuals: "in_sample" or "backtest" (out-of-sample residuals for the bootstrap).
-    refit: refit the recursive model on each bootstrap series (parameter uncertainty).
+    refit: refit the recursive model on each bootstrap series (parameter uncertainty);
+        refit_series: number of those series (path i uses refit i mod refit_series).
     backtest_origins / backtest_every: rolling-origin backtest, number of origins and days
-        between them (default: weekly origins over the last 26 weeks).
+        between them (default: weekly origins over the last 26 weeks); backtest_paths: sample
+        paths per origin and strategy (the smaller of this and the run's paths is used).
     """
 
     strategy: str = "auto"
@@ -54,13 +56,8 @@ class ForecastSettings:
     holiday_country: str | None = None
     residuals: str = "in_sample"
     refit: bool = False
+    refit_series: int = 50
     backtest_origins: int = 26
     backtest_every: int = 7
-    demand: DemandAdjustment = field(default_factory=DemandAdjustment)
-    # Added by the forecast engine (optional, with defaults):
-    # backtest_paths: sample paths per origin and strategy in the backtest (fewer than the
-    #     forecast's paths, for speed; the smaller of this and n_paths is used).
-    # refit_series: number of bootstrap histories refitted when refit=True; path i uses
-    #     refit i mod refit_series.
     backtest_paths: int = 200
-    refit_series: int = 50
+    demand: DemandAdjustment = field(default_factory=DemandAdjustment)

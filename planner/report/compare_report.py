@@ -6,44 +6,12 @@ from pathlib import Path
 
 import pandas as pd
 
-from planner.compare import paired_difference
 from planner.report import charts, html
 from planner.report.files import run_record, write_csv, write_json
-from planner.report.run_report import HEADLINE_WEEKS
-from planner.report.weekly import any_shortfall
+from planner.results import Comparison
 
 
-def summary_table(comparison) -> pd.DataFrame:
-    """One row per scenario: chance of any bed shortfall in the first weeks and over the
-    horizon, and expected patients affected over the horizon, with the paired difference."""
-    base = comparison.runs[0].weekly
-    rows = []
-    for run in comparison.runs:
-        weekly = run.weekly
-        weeks = min(HEADLINE_WEEKS, weekly.bed_shortfall.shape[1])
-        early, early_se = any_shortfall(weekly, weeks)
-        whole, _ = any_shortfall(weekly, weekly.bed_shortfall.shape[1])
-        affected = weekly.patients_affected.sum(axis=1)
-        change, change_se = paired_difference(
-            base.patients_affected.sum(axis=1)[:, None], affected[:, None]
-        )
-        rows.append(
-            {
-                "scenario": run.scenario.name,
-                f"p_bed_shortfall_first_{weeks}_weeks": early,
-                "se": early_se,
-                "p_bed_shortfall_any_week": whole,
-                "expected_patients_affected": affected.mean(),
-                "change_vs_first": change[0],
-                "change_se": change_se[0],
-                "p_staff_shortfall_any_week": weekly.staff_shortfall.any(axis=1).mean(),
-                "expected_short_shifts": weekly.short_shifts.sum(axis=1).mean(),
-            }
-        )
-    return pd.DataFrame(rows)
-
-
-def write_compare_files(comparison, folder: Path) -> None:
+def write_compare_files(comparison: Comparison, folder: Path) -> None:
     """comparison.csv, costs.csv (when costs are given), comparison.png, comparison.html,
     run.json."""
     write_csv(comparison.table, folder / "comparison.csv")
@@ -145,12 +113,12 @@ def weekly_view(table: pd.DataFrame) -> pd.DataFrame:
     )
 
 
-def compare_page(comparison, picture: bytes) -> str:
+def compare_page(comparison: Comparison, picture: bytes) -> str:
     first = comparison.runs[0]
     sections = [
         (
             "Plans at a glance",
-            html.table(glance_view(summary_table(comparison)))
+            html.table(glance_view(comparison.glance))
             + "<p>Every plan saw the same forecast admissions and the same stays path by path "
             "(common random numbers), so the changes against the first plan are paired; "
             "their standard errors are those of the paired differences. Counts are means "

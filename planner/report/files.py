@@ -6,16 +6,17 @@ seed give byte-identical files.
 
 from __future__ import annotations
 
-import hashlib
 import json
 import platform
 import sys
-from datetime import date, datetime
+from datetime import datetime
 from importlib import metadata
 from pathlib import Path
 from typing import Any
 
 import pandas as pd
+
+from planner.fingerprint import file_sha256, json_ready
 
 PACKAGES = ("planner", "numpy", "pandas", "scipy", "statsmodels", "simpy", "matplotlib", "click")
 
@@ -28,25 +29,6 @@ def write_csv(frame: pd.DataFrame, path: Path, float_format: str = "%.6g") -> No
         if pd.api.types.is_datetime64_any_dtype(out[column]):
             out[column] = out[column].dt.strftime("%Y-%m-%d")
     out.to_csv(path, index=False, float_format=float_format, lineterminator="\n")
-
-
-def file_sha256(path: Path) -> str:
-    digest = hashlib.sha256()
-    with Path(path).open("rb") as handle:
-        for block in iter(lambda: handle.read(1 << 20), b""):
-            digest.update(block)
-    return digest.hexdigest()
-
-
-def json_ready(value: Any) -> Any:
-    """Scenario values made JSON-friendly (dates as ISO text)."""
-    if isinstance(value, dict):
-        return {key: json_ready(item) for key, item in value.items()}
-    if isinstance(value, list | tuple):
-        return [json_ready(item) for item in value]
-    if isinstance(value, date | datetime):
-        return value.isoformat()
-    return value
 
 
 def package_versions() -> dict[str, str]:

@@ -1,8 +1,9 @@
-"""Files of a hindcast and the one line a run report quotes from the latest one.
+"""Files and page of a hindcast.
 
 Written into one folder:
 
-* ``hindcast.csv``: one row per origin and scored day (columns in :mod:`planner.hindcast`);
+* ``hindcast.csv``: one row per origin and scored day (columns in
+  :mod:`planner.runs.hindcast`);
 * ``hindcast_summary.csv``: per horizon week (0 = all): horizon_week, days, origins,
   model_coverage_50/80/95, model_pinball, naive_coverage_50/80/95, naive_pinball (patients),
   pinball_skill (1 - model / naive), brier_over_beds, brier_over_beds_minus_2,
@@ -10,14 +11,13 @@ Written into one folder:
 * ``hindcast_reliability.csv``: threshold, bin_from, bin_to, days, mean_predicted,
   observed_frequency;
 * ``hindcast.json``: the sidecar that ties the files to one setup: scenario name and key
-  (:func:`planner.hindcast.scenario_key`), origins, horizon, paths, seed, overall coverage,
+  (:func:`planner.fingerprint.scenario_key`), origins, horizon, paths, seed, overall coverage,
   PIT chi-square; the run record fields (resolved scenario, input hashes, versions);
 * ``pit.png``, ``coverage.png`` and the page ``hindcast.html``.
 """
 
 from __future__ import annotations
 
-import json
 from pathlib import Path
 
 import numpy as np
@@ -25,8 +25,7 @@ import pandas as pd
 
 from planner.report import charts, html
 from planner.report.files import run_record, write_csv, write_json
-
-SIDECAR = "hindcast.json"
+from planner.results import HINDCAST_SIDECAR, HindcastResult
 
 
 def pit_histogram(counts: np.ndarray) -> bytes:
@@ -75,31 +74,26 @@ def coverage_chart(summary: pd.DataFrame) -> bytes:
     return charts._png(figure)
 
 
-def headline(result) -> str:
+def headline(result: HindcastResult) -> str:
     """One sentence on the 80% band over all origins."""
-    overall = result.summary[result.summary["horizon_week"] == 0].iloc[0]
-    from planner.hindcast import weeks_covered
-
-    weeks = weeks_covered(result.origins, result.last_day)
+    overall = result.overall()
     return (
-        f"Over the last {weeks} weeks ({len(result.origins)} past start dates), the 80% census "
-        f"band of this setup held {overall['model_coverage_80']:.0%} of days (naive "
+        f"Over the last {result.weeks} weeks ({len(result.origins)} past start dates), the 80% "
+        f"census band of this setup held {overall['model_coverage_80']:.0%} of days (naive "
         f"baseline: {overall['naive_coverage_80']:.0%}); pinball loss "
         f"{overall['model_pinball']:.2f} patients against {overall['naive_pinball']:.2f}."
     )
 
 
-def _sidecar(result, scenario) -> dict:
-    from planner.hindcast import weeks_covered
-
-    overall = result.summary[result.summary["horizon_week"] == 0].iloc[0]
+def _sidecar(result: HindcastResult, scenario) -> dict:
+    overall = result.overall()
     inputs = [p for p in (scenario.admissions_file, scenario.episodes_file) if p]
     extra = {
         "scenario_name": result.scenario_name,
         "scenario_key": result.scenario_key,
         "origins": [o.date() for o in result.origins],
         "horizon_days": result.horizon_days,
-        "weeks": weeks_covered(result.origins, result.last_day),
+        "weeks": result.weeks,
         "coverage": {str(p): float(overall[f"model_coverage_{p}"]) for p in (50, 80, 95)},
         "naive_coverage": {str(p): float(overall[f"naive_coverage_{p}"]) for p in (50, 80, 95)},
         "pit_chi_square": result.chi_square,
@@ -125,7 +119,7 @@ def write_hindcast_files(result, scenario, folder: Path) -> None:
     for name, png in pictures.items():
         (folder / name).write_bytes(png)
     (folder / "hindcast.html").write_text(hindcast_page(result, pictures))
-    write_json(_sidecar(result, scenario), folder / SIDECAR)
+    write_json(_sidecar(result, scenario), folder / HINDCAST_SIDECAR)
 
 
 def hindcast_page(result, pictures: dict[str, bytes]) -> str:
@@ -186,24 +180,6 @@ def hindcast_page(result, pictures: dict[str, bytes]) -> str:
     return html.page(f"Hindcast: {result.scenario_name}", sections, subtitle)
 
 
-def find_latest_hindcast(roots: list[Path], scenario) -> str | None:
-    """The sentence of the newest hindcast saved for this setup in any folder directly
-    under one of ``roots`` (e.g. outputs/), or None."""
-    from planner.hindcast import scenario_key
-
-    key = scenario_key(scenario)
-    found = []
-    for root in dict.fromkeys(Path(r) for r in roots):
-        for sidecar in sorted(root.glob(f"*/{SIDECAR}")) if root.is_dir() else []:
-            record = json.loads(sidecar.read_text())
-            if record.get("scenario_key") == key and (sidecar.parent / "hindcast.csv").is_file():
-                found.append((record.get("created", ""), sidecar.parent, record))
-    if not found:
-        return None
-    _, folder, record = max(found, key=lambda item: item[0])
-    return _hindcast_line(folder, record)
-
-
 SUMMARY_NOTE = (
     "<p>Coverage: share of days on which the recorded census fell inside the central 50%, "
     "80% and 95% bands, for this setup and for the naive baseline (census at the start "
@@ -232,31 +208,3 @@ def summary_view(summary: pd.DataFrame) -> pd.DataFrame:
             "Brier, beds - 2": summary["brier_over_beds_minus_2"].map("{:.3f}".format),
         }
     )
-
-
-def _hindcast_line(folder: Path, record: dict) -> str:
-    """The sentence for the hindcast in ``folder`` described by its sidecar ``record``."""
-    rows = pd.read_csv(Path(folder) / "hindcast.csv")
-    held = np.mean((rows["census"] >= rows["model_lo80"]) & (rows["census"] <= rows["model_hi80"]))
-    return (
-        f"Over the last {record['weeks']} weeks ({len(record['origins'])} past start dates, "
-        f"hindcast of {record['created'][:10]}), the 80% census band of this setup held "
-        f"{held:.0%} of days."
-    )
-
-
-def latest_hindcast_line(folder: Path, scenario) -> str | None:
-    """The run report's sentence on the hindcast saved in ``folder`` (or ``folder/hindcast``)
-    for this setup, e.g. "Over the last 26 weeks, the 80% census band of this setup held 78%
-    of days"; None when there is none or it was made for another setup or other data."""
-    from planner.hindcast import scenario_key
-
-    for place in (Path(folder), Path(folder) / "hindcast"):
-        sidecar, table = place / SIDECAR, place / "hindcast.csv"
-        if not (sidecar.is_file() and table.is_file()):
-            continue
-        record = json.loads(sidecar.read_text())
-        if record.get("scenario_key") != scenario_key(scenario):
-            continue
-        return _hindcast_line(place, record)
-    return None

@@ -8,9 +8,7 @@ import pandas as pd
 
 from planner.report import charts, html
 from planner.report.files import run_record, write_csv, write_json
-from planner.report.weekly import any_shortfall, weekly_table
-
-HEADLINE_WEEKS = 4
+from planner.results import HindcastQuote, RunResult
 
 WEEKLY_NOTE = (
     "<p>Probabilities are shares of the simulated paths, with their Monte Carlo standard "
@@ -30,18 +28,6 @@ TERMINAL_COLUMNS = {
     "p_staff_shortfall": "P(short staff)",
     "expected_short_shifts": "short shifts",
 }
-
-
-RECENT_WEEKS = 8
-
-
-def recent_census(history, weeks: int = RECENT_WEEKS) -> pd.Series | None:
-    """The recorded midnight census of the last ``weeks`` weeks, or None without episodes."""
-    from planner.census import census_series
-
-    if history.episodes is None:
-        return None
-    return census_series(history.episodes, last_day=history.last_day).iloc[-7 * weeks :]
 
 
 def terminal_table(weekly: pd.DataFrame) -> str:
@@ -84,15 +70,14 @@ def page_table(weekly: pd.DataFrame) -> pd.DataFrame:
     )
 
 
-def headline(run, weeks: int = HEADLINE_WEEKS) -> str:
-    """One sentence: the chance of at least one bed shortfall in the first ``weeks`` weeks."""
-    weeks = min(weeks, run.weekly.bed_shortfall.shape[1])
-    share, se = any_shortfall(run.weekly, weeks)
-    affected = run.weekly.patients_affected[:, :weeks].sum(axis=1).mean()
+def headline(run: RunResult) -> str:
+    """One sentence: the chance of at least one bed shortfall in the first weeks."""
+    outlook = run.summary.outlook
     return (
-        f"Chance of at least one moment with no free bed in the next {weeks} weeks: "
-        f"{share:.0%} (Monte Carlo standard error {se:.1%}); on average {affected:.1f} "
-        f"patients would find no free bed in that time."
+        f"Chance of at least one moment with no free bed in the next {outlook.weeks} weeks: "
+        f"{outlook.p_bed_shortfall:.0%} (Monte Carlo standard error "
+        f"{outlook.p_bed_shortfall_se:.1%}); on average "
+        f"{outlook.expected_patients_affected:.1f} patients would find no free bed in that time."
     )
 
 
@@ -131,7 +116,7 @@ def _inpatients(run) -> str:
             "weeks understate the census."
         )
     text = (
-        f"{len(run.inputs.inpatients_elapsed)} patients on the ward at 00:00 on "
+        f"{len(run.model.inpatients_elapsed)} patients on the ward at 00:00 on "
         f"{run.history.first_day.date()}, remaining stays drawn given the time already spent"
     )
     if run.history.gap_days:
@@ -142,9 +127,20 @@ def _inpatients(run) -> str:
     return text
 
 
-def assumptions(run, hindcast_line: str | None = None) -> list[tuple[str, str]]:
+def hindcast_line(quote: HindcastQuote | None) -> str:
+    """The sentence on the latest hindcast of this setup."""
+    if quote is None:
+        return NO_HINDCAST
+    return (
+        f"Over the last {quote.weeks} weeks ({quote.origins} past start dates, hindcast of "
+        f"{quote.created}), the 80% census band of this setup held {quote.coverage_80:.0%} of "
+        f"days."
+    )
+
+
+def assumptions(run: RunResult, hindcast: HindcastQuote | None = None) -> list[tuple[str, str]]:
     """Key assumptions of the run, as (term, description) pairs for the report;
-    ``hindcast_line`` quotes the latest hindcast of this setup, if any."""
+    ``hindcast`` quotes the latest hindcast of this setup, if any."""
     summary = run.forecast.summary
     items = [
         (
@@ -175,24 +171,17 @@ def assumptions(run, hindcast_line: str | None = None) -> list[tuple[str, str]]:
             )
         )
     items += [
-        ("Length of stay", run.inputs.stays.describe()),
+        ("Length of stay", run.model.stays.describe()),
         ("Current inpatients", _inpatients(run)),
         *_ward_plan(run.scenario),
-        ("Hindcast", hindcast_line or NO_HINDCAST),
+        ("Hindcast", hindcast_line(hindcast)),
     ]
     return items
 
 
-def write_run_files(
-    run,
-    folder: Path,
-    daily: pd.DataFrame,
-    shifts: pd.DataFrame,
-    hindcast_line: str | None = None,
-) -> None:
-    """All files of ``planner run`` into ``folder``; ``hindcast_line`` as for
-    :func:`assumptions`."""
-    weekly = weekly_table(run.weekly)
+def write_run_files(run: RunResult, folder: Path, hindcast: HindcastQuote | None = None) -> None:
+    """All files of ``planner run`` into ``folder``; ``hindcast`` as for :func:`assumptions`."""
+    weekly, daily, shifts = run.summary.weekly, run.summary.daily, run.summary.shifts
     forecast = run.forecast.table()
     write_csv(weekly, folder / "weekly.csv")
     write_csv(daily, folder / "daily.csv")
@@ -200,13 +189,13 @@ def write_run_files(
     write_csv(forecast, folder / "forecast.csv")
     pictures = {
         "admissions.png": charts.admissions_fan(run.history.admissions, forecast),
-        "census.png": charts.census_fan(daily, recent_census(run.history)),
+        "census.png": charts.census_fan(daily, run.summary.recent_census),
         "shortfall.png": charts.shortfall_probabilities(weekly),
         "nurses.png": charts.nurses_against_roster(shifts),
     }
     for name, png in pictures.items():
         (folder / name).write_bytes(png)
-    (folder / "report.html").write_text(run_page(run, weekly, pictures, hindcast_line))
+    (folder / "report.html").write_text(run_page(run, pictures, hindcast))
     inputs = [p for p in (run.scenario.admissions_file, run.scenario.episodes_file) if p]
     summary = run.forecast.summary
     extra = {
@@ -226,7 +215,7 @@ def write_run_files(
 
 
 def run_page(
-    run, weekly: pd.DataFrame, pictures: dict[str, bytes], hindcast_line: str | None = None
+    run: RunResult, pictures: dict[str, bytes], hindcast: HindcastQuote | None = None
 ) -> str:
     """The self-contained report page."""
     scenario = run.scenario
@@ -237,11 +226,11 @@ def run_page(
     )
     sections = [
         ("", f'<p class="headline">{html.escape(headline(run))}</p>'),
-        ("Week by week", html.table(page_table(weekly)) + WEEKLY_NOTE),
+        ("Week by week", html.table(page_table(run.summary.weekly)) + WEEKLY_NOTE),
         ("Chance of running short", html.image(pictures["shortfall.png"], "weekly shortfall")),
         ("Census against beds", html.image(pictures["census.png"], "census fan chart")),
         ("Admissions", html.image(pictures["admissions.png"], "admissions fan chart")),
         ("Nurses", html.image(pictures["nurses.png"], "nurses required against rostered")),
-        ("Key assumptions", html.facts(assumptions(run, hindcast_line))),
+        ("Key assumptions", html.facts(assumptions(run, hindcast))),
     ]
     return html.page(f"Ward plan: {scenario.name}", sections, subtitle)

@@ -9,11 +9,9 @@ from planner.simulate.queueing import (
 from planner.simulate.staffing import (
     nurses_required,
     rostered_nurses,
-    shift_table,
     shortfall,
     validate_staffing,
 )
-from planner.simulate.summary import summarise_daily, summarise_shifts
 from planner.simulate.ward import WardResult, beds_open_by_day, simulate_ward
 
 __all__ = [
@@ -25,10 +23,7 @@ __all__ = [
     "inpatients_remaining_mean",
     "nurses_required",
     "rostered_nurses",
-    "shift_table",
     "shortfall",
     "simulate_ward",
-    "summarise_daily",
-    "summarise_shifts",
     "validate_staffing",
 ]

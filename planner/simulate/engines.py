@@ -2,8 +2,8 @@
 
 Engines: "simpy" (:func:`planner.simulate.ward.simulate_ward`, one SimPy run per path),
 "fast" (:func:`planner.simulate.fast.simulate_ward_fast`, numpy across paths) and "auto" (the
-fast engine whenever it covers the ward set-up). With the default random streams both engines
-give the same result for the same seed, so the choice changes the run time, not the numbers.
+fast engine: it covers every ward the scenario can describe). Both engines give the same result
+for the same seed, so the choice changes the run time, not the numbers.
 
 ``jobs`` > 1 splits the paths into consecutive chunks run in ``jobs`` processes (this one and
 ``jobs - 1`` workers, started on first use and kept for the session: see
@@ -16,40 +16,31 @@ arrays in shared memory, so no result is pickled and nothing is joined afterward
 
 from __future__ import annotations
 
-from collections.abc import Callable
 from concurrent.futures.process import BrokenProcessPool
 from dataclasses import replace
-from datetime import date
-from typing import TYPE_CHECKING
 
 import numpy as np
 
 from planner.errors import PlannerError
+from planner.schema import choices
 from planner.simulate import workers
 from planner.simulate.fast import simulate_ward_fast
+from planner.simulate.model import RunOptions, WardModel
 from planner.simulate.result import PATH_DAILY, PATH_SHIFTS, WardResult
-from planner.simulate.settings import WardSettings
-from planner.simulate.ward import POLICIES, simulate_ward
+from planner.simulate.ward import simulate_ward
 
-if TYPE_CHECKING:
-    from planner.simulate.stays import StayDistribution
-
-ENGINES = ("auto", "simpy", "fast")
-
-
-def covers(ward: WardSettings) -> bool:
-    """Whether the fast engine simulates this ward set-up: both policies, dated bed changes,
-    current inpatients and staffing are all covered, so any valid policy is."""
-    return ward.policy in POLICIES
+ENGINES = choices("simulation.engine")
+#: Paths per chunk of simulation work: small for the SimPy engine (the progress bar moves),
+#: large for the fast engine (it works across the paths of a chunk at once).
+CHUNK_PATHS = {"simpy": 100, "fast": 4096}
 
 
-def chosen_engine(engine: str, ward: WardSettings) -> str:
-    """The engine that runs: "simpy" or "fast" ("auto" picks fast when it covers the ward)."""
+def chosen_engine(engine: str) -> str:
+    """The engine that runs: "simpy" or "fast" ("auto" is the fast engine, which covers every
+    ward set-up)."""
     if engine not in ENGINES:
         raise PlannerError(f"engine must be one of {ENGINES}, got {engine!r}")
-    if engine == "auto":
-        return "fast" if covers(ward) else "simpy"
-    return engine
+    return "fast" if engine == "auto" else engine
 
 
 def chunk_starts(paths: int, jobs: int) -> list[int]:
@@ -60,15 +51,9 @@ def chunk_starts(paths: int, jobs: int) -> list[int]:
     return sorted({paths * i // chunks for i in range(chunks)})
 
 
-def _run(engine, arrivals, start, ward, stays, elapsed, profile, seed, first_path, streams):
-    if engine == "simpy":
-        return simulate_ward(
-            arrivals, start, ward, stays, elapsed, profile, seed, first_path=first_path
-        )
-    return simulate_ward_fast(
-        arrivals, start, ward, stays, elapsed, profile, seed, first_path=first_path,
-        streams=streams,
-    )  # fmt: skip
+def _run(engine: str, arrivals: np.ndarray, model: WardModel, seed, first_path: int) -> WardResult:
+    run = simulate_ward if engine == "simpy" else simulate_ward_fast
+    return run(arrivals, model, seed, first_path=first_path)
 
 
 def _store(result: WardResult, lo: int, output: dict[str, np.ndarray]) -> None:
@@ -99,39 +84,29 @@ def chunk_bounds(paths: int, jobs: int, chunk: int | None) -> list[tuple[int, in
 
 def simulate(
     arrivals: np.ndarray,
-    start: date,
-    ward: WardSettings,
-    stays: StayDistribution,
-    inpatients_elapsed: np.ndarray,
-    hour_profile: np.ndarray,
+    model: WardModel,
     seed: int | np.random.SeedSequence,
+    options: RunOptions | None = None,
     *,
-    engine: str = "auto",
-    jobs: int = 1,
     first_path: int = 0,
-    streams: str = "spawned",
     chunk: int | None = None,
-    progress: Callable[[int, int], None] | None = None,
-    scheduler: str | None = None,
 ) -> WardResult:
-    """Simulate the ward for every path of daily ``arrivals`` (paths x days, patients) with
-    ``engine``, in ``jobs`` processes. Arguments as for
-    :func:`planner.simulate.ward.simulate_ward`; ``streams`` ("spawned" or "counter") is
-    passed to the fast engine (the SimPy engine always uses "spawned"). Paths run in chunks
-    (:func:`chunk_bounds`: at most ``chunk`` paths each, default an even split over the
-    jobs), and ``progress(done, total)`` is called as chunks finish. ``scheduler``: address
-    of a dask.distributed scheduler to run the chunks on instead of local processes. The
-    result depends on neither ``jobs``, ``chunk`` nor ``scheduler``."""
-    name = chosen_engine(engine, ward)
-    if name == "simpy" and streams != "spawned":
-        raise PlannerError('streams: the simpy engine draws only the "spawned" streams')
+    """Simulate ``model`` for every path of daily ``arrivals`` (paths x days, patients) with
+    the engine, processes and cluster of ``options`` (default: "auto", one process). Paths run
+    in chunks (:func:`chunk_bounds`: at most ``chunk`` paths each, default the engine's
+    :data:`CHUNK_PATHS` split evenly over the jobs), and ``options.progress(done, total)`` is
+    called as chunks finish. ``first_path``: number of the first path, as for
+    :func:`planner.simulate.ward.simulate_ward`. The result depends on neither the engine,
+    ``jobs``, ``chunk`` nor the scheduler."""
+    options = options or RunOptions()
+    name = chosen_engine(options.engine or "auto")
+    jobs, progress = options.jobs, options.progress
     arrivals = np.asarray(arrivals)
     paths = arrivals.shape[0] if arrivals.ndim == 2 else 1
+    if chunk is None:
+        chunk = min(CHUNK_PATHS[name], max(1, -(-paths // max(int(jobs), 1))))
     pieces = chunk_bounds(paths, jobs, chunk)
-    common = (start, ward, stays, inpatients_elapsed, hour_profile, seed)
-    arguments = {
-        lo: (name, arrivals[lo:hi], *common, first_path + lo, streams) for lo, hi in pieces
-    }
+    arguments = {lo: (name, arrivals[lo:hi], model, seed, first_path + lo) for lo, hi in pieces}
     parts: dict[int, WardResult] = {}
 
     def finished(lo: int, part: WardResult) -> None:
@@ -139,17 +114,17 @@ def simulate(
         if progress is not None:
             progress(sum(hi - low for low, hi in pieces if low in parts), paths)
 
-    if scheduler is not None:
+    if options.scheduler is not None:
         from planner.simulate.distributed import map_chunks
 
-        results = map_chunks(scheduler, _run, [arguments[lo] for lo, _ in pieces])
+        results = map_chunks(options.scheduler, _run, [arguments[lo] for lo, _ in pieces])
         for (lo, _), part in zip(pieces, results, strict=True):
             finished(lo, part)
     elif jobs == 1 or len(pieces) == 1:
         for lo, _ in pieces:
             finished(lo, _run(*arguments[lo]))
     else:
-        shifts = len(ward.staffing.shifts)
+        shifts = len(model.settings.staffing.shifts)
         return _in_processes(pieces, arguments, min(int(jobs), len(pieces)), finished, shifts)
     return WardResult.concat([parts[lo] for lo, _ in pieces])
 

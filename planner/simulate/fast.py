@@ -3,10 +3,10 @@
 ``simulate_ward_fast`` takes the arguments of :func:`planner.simulate.ward.simulate_ward` and
 returns the same ``WardResult`` (same arrays, dtypes and meaning). The bed rules are those of
 the SimPy model (see :mod:`planner.simulate.fast_beds`); occupancy, queue and staffing records
-follow :mod:`planner.simulate.fast_records`; the random streams, "spawned" (the SimPy model's,
-default) or "counter", are described in :mod:`planner.simulate.fast_streams`. With "spawned"
-streams and the same seed both engines see the same arrivals and stays, so their results agree
-path by path (exactly equal event times aside, which continuous stays make probability 0).
+follow :mod:`planner.simulate.fast_records`; the random streams, the SimPy model's, are drawn
+as in :mod:`planner.simulate.fast_streams`. With the same seed both engines see the same
+arrivals and stays, so their results agree path by path (exactly equal event times aside,
+which continuous stays make probability 0).
 
 Paths run in blocks of at most ``BLOCK_PATHS``; a block's arrays are (arrival slots x paths),
 paths ordered by decreasing arrivals, so that the step for the k-th arrival of every path reads
@@ -15,24 +15,21 @@ contiguous rows.
 
 from __future__ import annotations
 
-from datetime import date
 from typing import TYPE_CHECKING
 
 import numpy as np
 
-from planner.errors import PlannerError
 from planner.simulate.fast_beds import allocate_beds
 from planner.simulate.fast_records import Pieces, daily_records
 from planner.simulate.fast_streams import draw_block
 from planner.simulate.lookup import UnitSearch
 from planner.simulate.result import PATH_DAILY, WardResult, ward_result
 from planner.simulate.settings import WardSettings
-from planner.simulate.ward import beds_open_by_day, check_inputs
+from planner.simulate.ward import beds_open_by_day, check_arrivals
 
 if TYPE_CHECKING:
-    from planner.simulate.stays import StayDistribution
+    from planner.simulate.model import WardModel
 
-STREAMS = ("spawned", "counter")
 #: Most paths simulated together: bounds memory (about 0.2 kB per path and arrival) and keeps
 #: the per-step arrays of bed release times small enough for the processor's cache (2048 ran
 #: 10,000 demo paths about a fifth faster than 4096 in a fresh process, 1024 no faster).
@@ -72,20 +69,6 @@ def arrival_rows(hour_uniforms, within_uniforms, counts, profile) -> np.ndarray:
     return times
 
 
-def arrival_hours(uniforms: np.ndarray, counts: np.ndarray, profile: np.ndarray) -> np.ndarray:
-    """Arrival times of one path (hours since 00:00 of day 0, sorted) from ``2 x total``
-    uniforms: the first half picks each admission's hour of day from ``profile``, the second
-    half the time within the hour.
-
-    Given ``uniforms = rng.random(2 * total)`` this equals
-    :func:`planner.simulate.arrivals.arrival_times` with the same ``rng``: ``Generator.choice``
-    with probabilities draws one uniform per value and inverts the cumulative shares, then the
-    times within the hour are the next uniforms (the tests check the equality)."""
-    total = uniforms.size // 2
-    rows = arrival_rows(uniforms[None, :total], uniforms[None, total:], counts[None], profile)
-    return rows[0]
-
-
 def by_slot(rows: np.ndarray, scale: float | None = None) -> np.ndarray:
     """(slots x paths) C-ordered copy of (paths x slots) ``rows`` (times ``scale`` if given),
     copied in bands of ``_BAND`` paths so that both sides of each band stay in cache."""
@@ -120,13 +103,15 @@ def _shift_starts(ward: WardSettings) -> tuple[np.ndarray, np.ndarray]:
     return np.array([shifts[j].start_hour for j in order], dtype=float), order
 
 
-def _simulate_block(counts, ward, beds, stays, elapsed, profile, seed, first_path, streams):
+def _simulate_block(counts, model: WardModel, beds, seed, first_path):
     """Daily measures (paths x days) and shift peaks (paths x days x shifts) of one block."""
     paths, days = counts.shape
+    ward, elapsed = model.settings, model.inpatients_elapsed
     totals = counts.sum(axis=1)
     order = np.argsort(-totals, kind="stable")  # most arrivals first (see allocate_beds)
-    draws = draw_block(streams, seed, first_path, totals, order, stays, elapsed)
-    rows = arrival_rows(draws.hour_uniforms, draws.within_uniforms, counts[order], profile)
+    draws = draw_block(seed, first_path, totals, order, model.stays, elapsed)
+    rows = arrival_rows(draws.hour_uniforms, draws.within_uniforms, counts[order],
+                        model.hour_profile)  # fmt: skip
     arrival = by_slot(rows)
     stay = by_slot(draws.stay_days, 24.0)
     remaining = 24.0 * draws.remaining_days
@@ -144,27 +129,17 @@ def _simulate_block(counts, ward, beds, stays, elapsed, profile, seed, first_pat
 
 def simulate_ward_fast(
     arrivals: np.ndarray,
-    start: date,
-    ward: WardSettings,
-    stays: StayDistribution,
-    inpatients_elapsed: np.ndarray,
-    hour_profile: np.ndarray,
+    model: WardModel,
     seed: int | np.random.SeedSequence,
     *,
     first_path: int = 0,
-    streams: str = "spawned",
 ) -> WardResult:
-    """Simulate the ward for every path of daily ``arrivals`` (paths x days, patients): the
+    """Simulate ``model`` for every path of daily ``arrivals`` (paths x days, patients): the
     arguments and result of :func:`planner.simulate.ward.simulate_ward`, computed for many
-    paths at once. ``streams``: "spawned" (the SimPy model's random numbers, so the same seed
-    gives the same paths) or "counter" (other numbers; see
-    :mod:`planner.simulate.fast_streams`)."""
+    paths at once with the same random numbers, so the same seed gives the same paths."""
     arrivals = np.asarray(arrivals)
-    elapsed = np.asarray(inpatients_elapsed, dtype=float)
-    profile = np.asarray(hour_profile, dtype=float)
-    check_inputs(arrivals, elapsed, profile, ward)
-    if streams not in STREAMS:
-        raise PlannerError(f"streams must be one of {STREAMS}, got {streams!r}")
+    check_arrivals(arrivals)
+    ward, start = model.settings, model.start
     counts = arrivals.astype(np.int64)
     paths, days = counts.shape
     beds = beds_open_by_day(ward, start, days)
@@ -176,9 +151,7 @@ def simulate_ward_fast(
     for lo, hi in zip(bounds[:-1], bounds[1:], strict=True):
         if hi == lo:
             continue
-        part, shift_peak[lo:hi] = _simulate_block(
-            counts[lo:hi], ward, beds, stays, elapsed, profile, seed, first_path + lo, streams
-        )
+        part, shift_peak[lo:hi] = _simulate_block(counts[lo:hi], model, beds, seed, first_path + lo)
         for name in PATH_DAILY:
             daily[name][lo:hi] = part[name]
     return ward_result(start, first_path, daily, beds, shift_peak, ward.staffing)

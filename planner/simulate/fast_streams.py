@@ -1,23 +1,16 @@
 """Random numbers of the fast ward engine, drawn for a block of paths into padded arrays.
 
-Streams (``streams``):
+Path ``i`` uses child ``i`` of ``SeedSequence(seed)`` and, within it, ``spawn(3)`` for arrival
+times, stays of new patients and remaining stays of current inpatients, each a ``PCG64``
+generator: the SimPy model's streams. Building those ``SeedSequence`` objects costs about 50 us
+per path, so :func:`spawned_state_words` computes the words each child gives its ``PCG64``
+(``generate_state(4, uint64)``) for all paths at once, with numpy's ``SeedSequence`` hash
+(M. E. O'Neill's ``seed_seq`` design, numpy's constants) on uint32 arrays; only the path number
+and child number differ between paths, so the mixing of the seed's own words is done once.
+Every block checks its first path against numpy's ``SeedSequence`` and falls back to it on any
+difference; the tests compare many more.
 
-- ``"spawned"``: the SimPy model's streams. Path ``i`` uses child ``i`` of ``SeedSequence(seed)``
-  and, within it, ``spawn(3)`` for arrival times, stays of new patients and remaining stays of
-  current inpatients, each a ``PCG64`` generator. Building those ``SeedSequence`` objects costs
-  about 50 us per path, so :func:`spawned_state_words` computes the words each child gives its
-  ``PCG64`` (``generate_state(4, uint64)``) for all paths at once, with numpy's
-  ``SeedSequence`` hash (M. E. O'Neill's ``seed_seq`` design, numpy's constants) on uint32
-  arrays; only the path number and child number differ between paths, so the mixing of the
-  seed's own words is done once. Every block checks its first path against numpy's
-  ``SeedSequence`` and falls back to it on any difference; the tests compare many more.
-- ``"counter"``: the same distributions, other numbers. One Philox key comes from the seed;
-  path ``i`` draws its arrival times from counter block ``(0, i, 0, 0)`` and its stays from
-  ``(0, i, 1, 0)``; the remaining stays of all paths come in path order from block
-  ``(0, 0, 2, 0)``, one uniform per inpatient, so path ``i`` starts at uniform
-  ``i x inpatients``.
-
-Either way a path's numbers depend only on the seed and the path number, never on how the
+A path's numbers depend only on the seed and the path number, never on how the
 paths are chunked. Remaining stays are computed for all paths in one ``sample_remaining``
 call, which relies on its contract: one uniform per patient, drawn with ``rng.random``, patient
 by patient. Stays of new patients are computed the same way, each path's uniforms drawn from
@@ -38,8 +31,6 @@ _INIT_A, _MULT_A = 0x43B0D7E5, 0x931E8875
 _INIT_B, _MULT_B = 0x8B51F9DD, 0x58F38DED
 _MIX_L, _MIX_R = 0xCA01F9DD, 0x4973F715
 _POOL = 4
-#: Spawn key word reserved for the counter streams' Philox key (path numbers stay below it).
-_COUNTER_KEY_WORD = 2**63
 CHILDREN = 3  # arrival times, stays of new patients, remaining stays of current inpatients
 
 
@@ -213,59 +204,33 @@ def _remaining_in_bulk(stays, uniforms: np.ndarray, elapsed: np.ndarray) -> np.n
     return np.asarray(remaining, dtype=float).reshape(uniforms.shape) if given.used else None
 
 
-def draw_block(streams, seed, first_path, totals, order, stays, elapsed) -> BlockDraws:
+def draw_block(seed, first_path, totals, order, stays, elapsed) -> BlockDraws:
     """Draw the block's numbers: path ``order[r]`` (block position; ``totals``: arrivals per
     path) fills row r. See the module docstring for the streams."""
     paths, inpatients = totals.size, elapsed.size
     slots = int(totals.max()) if paths else 0
     hour, within, stay = (np.zeros((paths, slots)) for _ in range(3))
     remaining = np.zeros((paths, inpatients))
-    if streams == "spawned":
-        words = spawned_state_words(seed, paths, first_path)
-        bulk = _samples_uniforms(stays)
-        for row, i in enumerate(order.tolist()):
-            n = int(totals[i])
-            rng = _generator(words[i, 0])
-            rng.random(out=hour[row, :n])
-            rng.random(out=within[row, :n])
-            if bulk:  # this path's uniforms now, all the block's stays at once below
-                _generator(words[i, 1]).random(out=stay[row, :n])
-            else:
-                stay[row, :n] = stays.sample(_generator(words[i, 1]), n)
-        if bulk:  # the padding is transformed too (never read): cheaper than picking it out
-            stay = _from_uniforms(stays, stay.ravel()).reshape(stay.shape)
-        if inpatients:
-            for i in range(paths):
-                _generator(words[i, 2]).random(out=remaining[i])
-            bulk = _remaining_in_bulk(stays, remaining, elapsed)
-            if bulk is None:  # the distribution does not draw one uniform per patient
-                for i in range(paths):
-                    remaining[i] = stays.sample_remaining(_generator(words[i, 2]), elapsed)
-            else:
-                remaining = bulk
-        return BlockDraws(hour, within, stay, remaining)
-    base = _base(seed)
-    key_seed = np.random.SeedSequence(base.entropy, spawn_key=(*base.spawn_key, _COUNTER_KEY_WORD))
-    bits = np.random.Philox(key=key_seed.generate_state(2, np.uint64))
-    rng = np.random.Generator(bits)
-    state = bits.state
-
-    def jump(block: tuple[int, int, int, int]) -> None:
-        state["state"]["counter"][:] = block
-        state["buffer_pos"] = 4
-        bits.state = state
-
+    words = spawned_state_words(seed, paths, first_path)
+    bulk = _samples_uniforms(stays)
     for row, i in enumerate(order.tolist()):
         n = int(totals[i])
-        jump((0, first_path + i, 0, 0))
+        rng = _generator(words[i, 0])
         rng.random(out=hour[row, :n])
         rng.random(out=within[row, :n])
-        jump((0, first_path + i, 1, 0))
-        stay[row, :n] = stays.sample(rng, n)
+        if bulk:  # this path's uniforms now, all the block's stays at once below
+            _generator(words[i, 1]).random(out=stay[row, :n])
+        else:
+            stay[row, :n] = stays.sample(_generator(words[i, 1]), n)
+    if bulk:  # the padding is transformed too (never read): cheaper than picking it out
+        stay = _from_uniforms(stays, stay.ravel()).reshape(stay.shape)
     if inpatients:
-        skip = first_path * inpatients  # uniforms used by the paths before this block
-        jump((skip // 4, 0, 2, 0))
-        rng.random(skip % 4)
-        every = np.tile(elapsed, paths)
-        remaining = np.asarray(stays.sample_remaining(rng, every)).reshape(paths, inpatients)
+        for i in range(paths):
+            _generator(words[i, 2]).random(out=remaining[i])
+        bulk = _remaining_in_bulk(stays, remaining, elapsed)
+        if bulk is None:  # the distribution does not draw one uniform per patient
+            for i in range(paths):
+                remaining[i] = stays.sample_remaining(_generator(words[i, 2]), elapsed)
+        else:
+            remaining = bulk
     return BlockDraws(hour, within, stay, remaining)

@@ -12,10 +12,9 @@ from __future__ import annotations
 from datetime import date, timedelta
 
 import numpy as np
-import pandas as pd
 
 from planner.errors import PlannerError
-from planner.simulate.settings import Shift, StaffingSettings
+from planner.simulate.settings import StaffingSettings
 
 TILING = "shifts must cover the 24 hours exactly once"
 
@@ -68,19 +67,8 @@ def validate_staffing(staffing: StaffingSettings) -> None:
     for override in staffing.overrides:
         if override.shift not in names:
             raise PlannerError(f"staffing.overrides: unknown shift {override.shift!r}")
-        if override.end < override.start:
-            raise PlannerError(
-                f"staffing.overrides: end {override.end} is before start {override.start}"
-            )
         if int(override.nurses) != override.nurses or override.nurses < 0:
             raise PlannerError("staffing.overrides: nurses must be a whole number >= 0")
-
-
-def shift_starts(shifts: tuple[Shift, ...], days: int) -> np.ndarray:
-    """Start of every shift of ``days`` days, hours since 00:00 of day 0, shape (days, shifts),
-    columns in the order of ``shifts``."""
-    hours = np.array([shift.start_hour for shift in shifts], dtype=float)
-    return 24.0 * np.arange(days, dtype=float)[:, None] + hours
 
 
 def rostered_nurses(staffing: StaffingSettings, start: date, days: int) -> np.ndarray:
@@ -118,32 +106,3 @@ def shortfall(required: np.ndarray, rostered: np.ndarray) -> np.ndarray:
     gap = np.asarray(required, dtype=np.int64) - np.asarray(rostered, dtype=np.int64)
     return np.maximum(gap, 0).astype(np.int32)
 
-
-def shift_table(
-    peak_occupancy: np.ndarray, staffing: StaffingSettings, start: date, first_path: int = 0
-) -> pd.DataFrame:
-    """Tidy staffing table from peak occupied beds per (path, day, shift) (shifts in the order
-    of ``staffing.shifts``): path, date (day the shift starts), shift, peak_occupancy,
-    nurses_required, nurses_rostered, shortfall (patients and nurses, int32)."""
-    peak = np.asarray(peak_occupancy, dtype=np.int32)
-    paths, days, count = peak.shape
-    ratio = np.array([shift.patients_per_nurse for shift in staffing.shifts], dtype=float)
-    required = nurses_required(peak, ratio, staffing.minimum_nurses)
-    rostered = np.broadcast_to(rostered_nurses(staffing, start, days), peak.shape)
-    dates = np.datetime64(start, "D") + np.arange(days)
-    names = pd.Categorical.from_codes(
-        np.tile(np.arange(count), paths * days), categories=[s.name for s in staffing.shifts]
-    )
-    return pd.DataFrame(
-        {
-            "path": np.repeat(
-                np.arange(first_path, first_path + paths, dtype=np.int32), days * count
-            ),
-            "date": np.tile(np.repeat(dates, count), paths).astype("datetime64[s]"),
-            "shift": names,
-            "peak_occupancy": peak.ravel(),
-            "nurses_required": required.ravel(),
-            "nurses_rostered": rostered.ravel().astype(np.int32),
-            "shortfall": shortfall(required, rostered).ravel(),
-        }
-    )

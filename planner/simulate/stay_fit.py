@@ -43,6 +43,11 @@ class StayFit:
     n: int
 
 
+def _check_model(model: str, key: str) -> None:
+    if model not in MODELS:
+        raise PlannerError(f"{key} must be one of {', '.join(MODELS)}; got {model!r}")
+
+
 def _fit_family(name: str, x: np.ndarray) -> tuple[ParametricStay, int]:
     """MLE with location fixed at 0 (scipy.stats ``fit(floc=0)``); returns (fit, k)."""
     if name == "exponential":
@@ -67,10 +72,9 @@ def fit_stays(
     included, is reported whatever the model. ``observed`` (one bool per stay, False = still
     in progress, censored at that length) switches to :func:`fit_censored_stays`.
     """
-    if model not in MODELS:
-        raise PlannerError(f"model must be one of {', '.join(MODELS)}; got {model!r}")
     if observed is not None:
         return fit_censored_stays(stays, observed, model)
+    _check_model(model, "model")
     x = stays_array(stays)
     if np.ptp(x) == 0:
         raise PlannerError("stays: all lengths of stay are equal; cannot fit a distribution")
@@ -156,8 +160,7 @@ def fit_censored_stays(durations: np.ndarray, observed: np.ndarray, model: str =
     so far when False. ``model`` as in :func:`fit_stays`; "empirical" gives the Kaplan-Meier
     distribution. AIC = 2 k - 2 (censored log-likelihood at the MLE).
     """
-    if model not in MODELS:
-        raise PlannerError(f"model must be one of {', '.join(MODELS)}; got {model!r}")
+    _check_model(model, "model")
     x, ended = checked_stays(durations, observed)
     if np.ptp(x) == 0:
         raise PlannerError("stays: all lengths of stay are equal; cannot fit a distribution")
@@ -176,6 +179,7 @@ def fit_censored_stays(durations: np.ndarray, observed: np.ndarray, model: str =
 
 
 def _from_mean_sd(model: str, mean: float, sd: float | None) -> StayDistribution:
+    _check_model(model, "stay.model")
     mean = positive_number(mean, "stay.mean")
     if model == "exponential":
         if sd is not None and not math.isclose(sd, mean, rel_tol=1e-9):
@@ -200,8 +204,6 @@ def stay_distribution(
     ``(mean + change_days) / mean * scale``, so the mean becomes
     ``(mean + change_days) * scale`` and the coefficient of variation is kept.
     """
-    if settings.model not in MODELS:
-        raise PlannerError(f"stay.model must be one of {', '.join(MODELS)}; got {settings.model!r}")
     if settings.mean is not None:
         distribution = _from_mean_sd(settings.model, settings.mean, settings.sd)
     elif settings.sd is not None:

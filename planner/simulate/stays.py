@@ -19,6 +19,7 @@ import numpy as np
 from scipy import optimize, special, stats
 
 from planner.errors import PlannerError
+from planner.schema import choices
 
 #: Shortest stay returned, in days (about 0.1 ms); keeps every stay strictly positive.
 MINIMUM_STAY_DAYS = 1e-9
@@ -29,7 +30,8 @@ _UNDERFLOW = 1e-300
 PARAMETRIC_MODELS = ("lognormal", "gamma", "weibull", "exponential")
 #: Families compared when ``model="best"``.
 BEST_CANDIDATES = ("lognormal", "gamma", "weibull")
-MODELS = ("empirical", "best", *PARAMETRIC_MODELS)
+#: The models a scenario can name: "empirical", "best" and the parametric families.
+MODELS = choices("stay.model")
 
 
 def positive_number(value: float, name: str) -> float:

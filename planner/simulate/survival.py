@@ -23,7 +23,6 @@ from dataclasses import dataclass, field
 from typing import ClassVar
 
 import numpy as np
-import pandas as pd
 
 from planner.errors import PlannerError
 from planner.simulate.lookup import UnitSearch
@@ -35,27 +34,8 @@ from planner.simulate.stays import (
     positive_number,
 )
 
-HOURS_PER_DAY = 24.0
 #: The tail's mean excess is estimated over the stays beyond this point of the estimate.
 TAIL_FROM_QUANTILE = 0.9
-
-
-def stays_at(episodes: pd.DataFrame, moment: pd.Timestamp) -> tuple[np.ndarray, np.ndarray]:
-    """Stays (days) as they were known at ``moment``, and which of them had ended.
-
-    Episodes discharged by ``moment`` are ended (observed, stay = discharge - admission);
-    episodes admitted before ``moment`` and not discharged by then are censored at
-    ``moment`` (stay so far = moment - admission); episodes admitted at or after ``moment``
-    are left out. Returns ``(durations_days, observed)``.
-    """
-    moment = pd.Timestamp(moment)
-    admitted = episodes["admitted_at"]
-    discharged = episodes["discharged_at"]
-    known = (admitted < moment).to_numpy()
-    ended = (discharged <= moment).to_numpy() & known  # NaT compares False
-    end = discharged.where(ended, moment)[known]
-    hours = (end - admitted[known]).dt.total_seconds().to_numpy() / 3600.0
-    return hours / HOURS_PER_DAY, ended[known]
 
 
 def checked_stays(durations, observed) -> tuple[np.ndarray, np.ndarray]:

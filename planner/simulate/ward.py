@@ -30,15 +30,15 @@ import numpy as np
 import simpy
 
 from planner.errors import PlannerError
+from planner.schema import choices
 from planner.simulate.arrivals import arrival_times
 from planner.simulate.result import PATH_DAILY, WardResult, ward_result
 from planner.simulate.settings import WardSettings
-from planner.simulate.staffing import validate_staffing
 
 if TYPE_CHECKING:
-    from planner.simulate.stays import StayDistribution
+    from planner.simulate.model import WardModel
 
-POLICIES = ("wait", "divert")
+POLICIES = choices("beds.policy")
 
 
 def beds_open_by_day(ward: WardSettings, start: date, days: int) -> np.ndarray:
@@ -47,8 +47,6 @@ def beds_open_by_day(ward: WardSettings, start: date, days: int) -> np.ndarray:
         raise PlannerError(f"beds must be a whole number >= 0, got {ward.beds!r}")
     beds = np.full(days, int(ward.beds), dtype=np.int64)
     for change in ward.bed_changes:
-        if change.end < change.start:
-            raise PlannerError(f"bed_changes: end {change.end} is before start {change.start}")
         first = max((change.start - start).days, 0)
         last = min((change.end - start).days, days - 1)
         if first <= last:
@@ -152,47 +150,32 @@ def _levels_and_peaks(times, levels, boundaries):
     return levels[index], np.maximum(within, levels[index[1:]])
 
 
-def check_inputs(arrivals, inpatients_elapsed, hour_profile, ward):
+def check_arrivals(arrivals: np.ndarray) -> None:
+    """Refuse daily arrivals that are not a (paths x days) array of whole numbers >= 0."""
     if arrivals.ndim != 2 or arrivals.shape[1] == 0:
         raise PlannerError("arrivals must be a (paths x days) array with at least one day")
     if np.any(arrivals < 0) or not np.all(arrivals == np.round(arrivals)):
         raise PlannerError("arrivals must be whole numbers >= 0")
-    if inpatients_elapsed.ndim != 1 or not np.all(np.isfinite(inpatients_elapsed)):
-        raise PlannerError("inpatients_elapsed must be a 1-D array of finite days")
-    if np.any(inpatients_elapsed < 0):
-        raise PlannerError("inpatients_elapsed must be >= 0 days")
-    if hour_profile.shape != (24,) or np.any(hour_profile < 0):
-        raise PlannerError("hour_profile must be 24 probabilities >= 0")
-    if not np.isclose(hour_profile.sum(), 1.0):
-        raise PlannerError("hour_profile must sum to 1")
-    if ward.policy not in POLICIES:
-        raise PlannerError(f"policy must be one of {POLICIES}, got {ward.policy!r}")
-    validate_staffing(ward.staffing)
 
 
 def simulate_ward(
     arrivals: np.ndarray,
-    start: date,
-    ward: WardSettings,
-    stays: StayDistribution,
-    inpatients_elapsed: np.ndarray,
-    hour_profile: np.ndarray,
+    model: WardModel,
     seed: int | np.random.SeedSequence,
     *,
     first_path: int = 0,
 ) -> WardResult:
-    """Simulate the ward for every path of daily ``arrivals`` (paths x days, patients).
+    """Simulate ``model`` for every path of daily ``arrivals`` (paths x days, patients).
 
-    ``stays``: length-of-stay distribution (days) with ``sample(rng, size)`` and
-    ``sample_remaining(rng, elapsed)``. ``inpatients_elapsed``: days already in for each patient
-    in a bed at 00:00 of ``start``. ``hour_profile``: share of a day's arrivals in each hour.
-    ``first_path``: number of the first path, so that chunks of paths run separately give the
-    same result as one run. The same ``seed`` gives the same result.
+    The model's stays give ``sample(rng, size)`` and ``sample_remaining(rng, elapsed)``
+    (days); its patients on the ward at the start keep their beds until their remaining stays
+    end. ``first_path``: number of the first path, so that chunks of paths run separately give
+    the same result as one run. The same ``seed`` gives the same result.
     """
     arrivals = np.asarray(arrivals)
-    elapsed = np.asarray(inpatients_elapsed, dtype=float)
-    profile = np.asarray(hour_profile, dtype=float)
-    check_inputs(arrivals, elapsed, profile, ward)
+    check_arrivals(arrivals)
+    ward, stays, start = model.settings, model.stays, model.start
+    elapsed, profile = model.inpatients_elapsed, model.hour_profile
     arrivals = arrivals.astype(np.int64)
     paths, days = arrivals.shape
     horizon = 24.0 * days

@@ -17,6 +17,7 @@ send their results back instead.
 from __future__ import annotations
 
 import atexit
+import contextlib
 import mmap
 import multiprocessing
 import os
@@ -40,6 +41,13 @@ def worker_setup() -> None:
     (which stops the workers), so an interrupted run prints no worker tracebacks."""
     keep_freed_memory()
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
+def _report_and_set_up(started) -> None:
+    """Start of every worker of the session's pool: set up as :func:`worker_setup`, then
+    report this process's id through ``started`` (a queue), so that :func:`stop` can end it."""
+    worker_setup()
+    started.put(os.getpid())
 
 
 def can_fork() -> bool:
@@ -114,6 +122,8 @@ def _copy_rows(arrays: dict[str, np.ndarray], first: int, values: dict[str, np.n
         array[first : first + len(values[name])] = values[name]
 
 
+#: The session's pool, its kind (workers, forked) and the queue its workers report their
+#: process ids through.
 _POOL: dict[str, object] = {}
 
 
@@ -123,15 +133,23 @@ def _shutdown() -> None:
         pool.shutdown(wait=True, cancel_futures=True)
 
 
+def _running_workers(started) -> list[int]:
+    """Process ids reported through ``started`` whose processes are still running."""
+    reported = set()
+    while not started.empty():
+        reported.add(started.get())
+    return sorted(reported & {child.pid for child in multiprocessing.active_children()})
+
+
 def stop() -> None:
     """Stop the session's workers at once, chunks in progress included (after an interrupted
     or failed run); the next run starts new ones."""
     pool = _POOL.pop("pool", None)
     if pool is None:
         return
-    processes = getattr(pool, "_processes", None) or {}  # ProcessPoolExecutor's own table
-    for process in list(processes.values()):
-        process.terminate()
+    for pid in _running_workers(_POOL["started"]):
+        with contextlib.suppress(ProcessLookupError):
+            os.kill(pid, signal.SIGTERM)
     pool.shutdown(wait=False, cancel_futures=True)
 
 
@@ -142,7 +160,10 @@ def pool(workers: int) -> ProcessPoolExecutor:
     if _POOL.get("kind") != kind or _POOL.get("pool") is None:
         _shutdown()
         context = multiprocessing.get_context("fork" if kind[1] else None)
-        _POOL["pool"] = ProcessPoolExecutor(workers, context, initializer=worker_setup)
+        _POOL["started"] = context.SimpleQueue()
+        _POOL["pool"] = ProcessPoolExecutor(
+            workers, context, initializer=_report_and_set_up, initargs=(_POOL["started"],)
+        )
         _POOL["kind"] = kind
         if not _POOL.get("registered"):
             atexit.register(_shutdown)

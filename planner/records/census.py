@@ -5,7 +5,7 @@ For each calendar day d (from the first admission day to the last day the record
 * ``census``: patients on the ward at 24:00 of d, i.e. admitted before 24:00 and not
   discharged by then: ``#{admitted_at < m} - #{discharged_at <= m}`` with ``m`` = 00:00 of
   d + 1. A patient without a discharge is on the ward until the end of the records. This is
-  the same rule as :func:`planner.history.inpatients_at` and the simulated ``census``.
+  the same rule as :func:`planner.records.ward_history.inpatients_at` and the simulated ``census``.
 * ``peak_occupancy``: the most patients on the ward at any moment of [00:00, 24:00) of d.
   Events at the same minute are taken discharges first (a bed freed and refilled at 14:00 is
   one bed, not two), so the peak is the census at the previous midnight or the level just
@@ -24,7 +24,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from planner.history import episodes_end
+from planner.records.files import episodes_end
 
 #: Days at the start of the records whose census may be short of patients admitted before
 #: the records began.
@@ -42,7 +42,7 @@ def census_history(
     moment of the day) from ``admitted_at`` / ``discharged_at`` records (NaT = still in).
 
     Days run from ``first_day`` (default: the first admission day) to ``last_day`` (default:
-    :func:`planner.history.episodes_end`). Returns columns ``date``, ``census``,
+    :func:`planner.records.files.episodes_end`). Returns columns ``date``, ``census``,
     ``peak_occupancy`` (int64), one row per day.
     """
     admitted = episodes["admitted_at"]

@@ -28,7 +28,6 @@ import pandas as pd
 
 from planner.errors import PlannerError
 
-HOURS_PER_DAY = 24.0
 _SLASHED = re.compile(r"^\d{1,2}[/.\-]\d{1,2}[/.\-]\d{2,4}\b")
 
 
@@ -232,14 +231,3 @@ def admissions_from_episodes(episodes: pd.DataFrame, end: pd.Timestamp | None = 
     index = pd.date_range(days.min(), end, freq="D", name="date")
     counts = days.value_counts().reindex(index, fill_value=0).astype(np.int64)
     return counts.rename("admissions")
-
-
-def inpatients_at(episodes: pd.DataFrame, moment: pd.Timestamp) -> np.ndarray:
-    """Elapsed stays (days) at ``moment`` of the patients on the ward then: admitted before it
-    and not yet discharged (discharge after it, or none recorded)."""
-    moment = pd.Timestamp(moment)
-    admitted = episodes["admitted_at"]
-    discharged = episodes["discharged_at"]
-    present = (admitted < moment) & (discharged.isna() | (discharged > moment))
-    elapsed = (moment - admitted[present]).dt.total_seconds() / 3600.0 / HOURS_PER_DAY
-    return np.sort(elapsed.to_numpy(dtype=float))

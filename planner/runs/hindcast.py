@@ -7,7 +7,7 @@ daily admissions before the origin, episodes admitted before it with their stays
 patients on the ward at the origin with their elapsed stays, and the hour-of-day profile of
 those admissions. The scenario's forecast settings give admission paths over its horizon, the
 scenario's ward simulates them, and each day's simulated census (occupied beds at 24:00) is
-compared with the census rebuilt from all the episode records (:mod:`planner.census`). The
+compared with the census rebuilt from all the episode records (:mod:`planner.records.census`). The
 horizon may run past the end of the history: only days with a recorded census are scored, so
 late horizon weeks are scored on fewer origins (column ``origins`` of the summary). What-if
 settings of the scenario (demand growth and surges, stay changes, dated bed changes) are
@@ -22,8 +22,8 @@ origin, date, horizon_day (1 = the origin's own day), horizon_week (1 = days 1-7
 model_lo50/hi50, model_lo80/hi80, model_lo95/hi95 (central intervals across paths),
 model_pinball (pinball loss over the levels 0.05 .. 0.95), naive_start (census at the origin),
 naive_median, naive_lo50 .. naive_hi95, naive_pinball (the carried-forward baseline of
-:mod:`planner.hindcast_scores`), pit (randomised PIT), pit_sample (True on the day used for
-the PIT chi-square: day 4 of each horizon week, one per origin-week), p_over_beds,
+:mod:`planner.summaries.hindcast_scores`), pit (randomised PIT), pit_sample (True on the day
+used for the PIT chi-square: day 4 of each horizon week, one per origin-week), p_over_beds,
 p_over_beds_minus_2, p_over_beds_minus_4 (share of paths with census > beds_open - 0, 2, 4).
 
 Randomness: origin o uses ``SeedSequence(seed, spawn_key=(day number of o,))``, so its numbers
@@ -32,66 +32,26 @@ do not depend on the other origins or on ``workers``.
 
 from __future__ import annotations
 
-import hashlib
 import json
 import os
-from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from planner import hindcast_scores as scores
-from planner.census import WARMUP_DAYS, census_series
 from planner.errors import PlannerError
-from planner.pipeline import (
-    WardHistory,
-    forecast_step,
-    load_history,
-    simulate_step,
-    ward_inputs,
-)
-from planner.report.files import file_sha256, json_ready
+from planner.fingerprint import scenario_key
+from planner.records.census import WARMUP_DAYS
+from planner.results import HINDCAST_SIDECAR, HindcastQuote, HindcastResult
+from planner.runs.run import forecast_step, load_history, simulate_step, ward_model
 from planner.scenario import Scenario
+from planner.simulate.model import RunOptions
 from planner.simulate.workers import worker_setup
+from planner.summaries import hindcast_scores as scores
 
 #: Threshold columns -> beds below beds open.
 THRESHOLDS = {"p_over_beds": 0, "p_over_beds_minus_2": 2, "p_over_beds_minus_4": 4}
 PIT_DAY_OF_WEEK = 4  # the day of each horizon week whose PIT enters the chi-square test
-#: Scenario keys that do not change what a hindcast computes.
-NOT_IN_KEY = ("name", "description", "paths", "seed", "costs", "start", "history")
-
-
-@dataclass(frozen=True)
-class HindcastResult:
-    """``table``: the hindcast.csv rows; ``summary``: scores by horizon week (0 = all);
-    ``reliability``: predicted-probability bins per threshold; ``pit_counts``: PIT histogram
-    (10 bins) of the pit_sample days with its chi-square statistic and p-value;
-    ``last_day``: the last day of the history."""
-
-    scenario_name: str
-    scenario_key: str
-    origins: pd.DatetimeIndex
-    horizon_days: int
-    last_day: pd.Timestamp
-    paths: int
-    seed: int
-    table: pd.DataFrame
-    summary: pd.DataFrame
-    reliability: pd.DataFrame
-    pit_counts: np.ndarray
-    chi_square: float
-    p_value: float
-    notes: tuple[str, ...]
-
-
-def scenario_key(scenario: Scenario) -> str:
-    """A hash (hex, 16 digits) of the resolved scenario without the keys that do not change a
-    hindcast, plus the contents of its history files: equal keys = the same setup and data."""
-    resolved = {k: v for k, v in scenario.resolved.items() if k not in NOT_IN_KEY}
-    files = [p for p in (scenario.admissions_file, scenario.episodes_file) if p]
-    record = {"scenario": json_ready(resolved), "files": [file_sha256(p) for p in files]}
-    text = json.dumps(record, sort_keys=True, default=str)
-    return hashlib.sha256(text.encode()).hexdigest()[:16]
 
 
 def weeks_covered(origins: pd.DatetimeIndex, last_day: pd.Timestamp) -> int:
@@ -107,16 +67,6 @@ def default_origins(last_day: pd.Timestamp, weeks: int = 26, every_days: int = 1
     first_free = pd.Timestamp(last_day).normalize() + pd.Timedelta(days=1)
     steps = np.arange(7 * weeks // every_days, 0, -1) * every_days
     return pd.DatetimeIndex([first_free - pd.Timedelta(days=int(s)) for s in steps])
-
-
-def _known_at(history: WardHistory, origin: pd.Timestamp) -> WardHistory:
-    """What the files said at ``origin``: admissions and episodes before it, discharges after
-    it not yet known."""
-    episodes = history.episodes[history.episodes["admitted_at"] < origin].copy()
-    late = episodes["discharged_at"] > origin
-    episodes.loc[late, "discharged_at"] = pd.NaT
-    admissions = history.admissions[history.admissions.index < origin]
-    return WardHistory(admissions, episodes, origin)
 
 
 def _origin_seeds(seed: int, origin: pd.Timestamp) -> tuple[int, np.random.Generator]:
@@ -137,14 +87,14 @@ def _band_columns(prefix: str, quantiles: np.ndarray) -> dict[str, np.ndarray]:
 def hindcast_origin(
     scenario, history, census, origin, paths, seed, engine: str = "auto"
 ) -> pd.DataFrame:
-    """The hindcast.csv rows of one origin (``engine`` as in ``planner.pipeline.simulate_step``;
-    the result does not depend on it)."""
+    """The hindcast.csv rows of one origin (``engine`` as in
+    :func:`planner.simulate.engines.simulate`; the result does not depend on it)."""
     origin = pd.Timestamp(origin).normalize()
-    known = _known_at(history, origin)
+    known = history.known_at(origin)
     run_seed, pit_rng = _origin_seeds(seed, origin)
     forecast = forecast_step(scenario, known, paths, run_seed)
-    inputs = ward_inputs(scenario, known)
-    ward = simulate_step(scenario, inputs, forecast.paths, origin, run_seed, engine=engine)
+    options = RunOptions(paths=paths, seed=run_seed, engine=engine)
+    ward = simulate_step(ward_model(scenario, known), forecast.paths, options)
     days = scenario.horizon_days
     simulated = ward.daily["census"].to_numpy().reshape(paths, days)
     beds = ward.daily["beds_open"].to_numpy()[:days]
@@ -247,7 +197,7 @@ def hindcast(
         )
     seed = scenario.seed if seed is None else int(seed)
     history = load_history(scenario)
-    census = census_series(history.episodes, last_day=history.last_day)
+    census = history.census()
     if origins is None:
         origins = default_origins(history.last_day, weeks, every_days)
     origins = pd.DatetimeIndex(origins).normalize()
@@ -274,6 +224,7 @@ def hindcast(
         origins=origins,
         horizon_days=scenario.horizon_days,
         last_day=history.last_day,
+        weeks=weeks_covered(origins, history.last_day),
         paths=paths,
         seed=seed,
         table=table,
@@ -283,4 +234,25 @@ def hindcast(
         chi_square=chi_square,
         p_value=p_value,
         notes=_notes(scenario, table),
+    )
+
+
+def latest_hindcast(roots: list[Path], scenario: Scenario) -> HindcastQuote | None:
+    """The newest hindcast saved for this setup (same :func:`scenario_key`) in any folder
+    directly under one of ``roots`` (e.g. outputs/), as its sidecar records it, or None."""
+    key = scenario_key(scenario)
+    found = []
+    for root in dict.fromkeys(Path(r) for r in roots):
+        for sidecar in sorted(root.glob(f"*/{HINDCAST_SIDECAR}")) if root.is_dir() else []:
+            record = json.loads(sidecar.read_text())
+            if record.get("scenario_key") == key and (sidecar.parent / "hindcast.csv").is_file():
+                found.append(record)
+    if not found:
+        return None
+    record = max(found, key=lambda item: item.get("created", ""))
+    return HindcastQuote(
+        weeks=record["weeks"],
+        origins=len(record["origins"]),
+        created=record["created"][:10],
+        coverage_80=record["coverage"]["80"],
     )

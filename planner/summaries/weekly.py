@@ -12,8 +12,7 @@ and week:
   short shifts: how many.
 
 Probabilities are shares of paths; ``_se`` columns are Monte Carlo standard errors across the
-independent paths, sqrt(p (1 - p) / n) for a share and sd / sqrt(n) for a mean (Source:
-Morris, White & Crowther, Stat. Med. 38 (2019), Table 6).
+independent paths (:mod:`planner.summaries.monte_carlo`).
 """
 
 from __future__ import annotations
@@ -25,6 +24,10 @@ import numpy as np
 import pandas as pd
 
 from planner.simulate.result import WardResult
+from planner.summaries.monte_carlo import mean_se, share_se
+
+#: Weeks of the headline figure: the chance of any bed shortfall in the first weeks.
+HEADLINE_WEEKS = 4
 
 
 @dataclass(frozen=True)
@@ -87,19 +90,6 @@ def weekly_paths(result: WardResult, start: date | pd.Timestamp | None = None) -
     )
 
 
-def share_se(indicator: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Share of paths (axis 0) and its Monte Carlo standard error sqrt(p (1 - p) / n)."""
-    share = indicator.mean(axis=0)
-    return share, np.sqrt(share * (1 - share) / indicator.shape[0])
-
-
-def mean_se(values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Mean over paths (axis 0) and its standard error sd / sqrt(n)."""
-    n = values.shape[0]
-    spread = values.std(axis=0, ddof=1) if n > 1 else np.zeros(values.shape[1])
-    return values.mean(axis=0), spread / np.sqrt(n)
-
-
 def weekly_table(weekly: WeeklyPaths) -> pd.DataFrame:
     """One row per forecast week (columns documented in the README, "weekly.csv")."""
     p_bed, p_bed_se = share_se(weekly.bed_shortfall)
@@ -130,3 +120,23 @@ def any_shortfall(weekly: WeeklyPaths, weeks: int) -> tuple[float, float]:
     hit = weekly.bed_shortfall[:, :weeks].any(axis=1)
     share, se = share_se(hit[:, None])
     return float(share[0]), float(se[0])
+
+
+@dataclass(frozen=True)
+class Outlook:
+    """The headline of a run: over its first ``weeks`` weeks, the probability (share of paths)
+    of at least one moment with no free bed, its standard error, and the mean number of
+    patients who found no free bed."""
+
+    weeks: int
+    p_bed_shortfall: float
+    p_bed_shortfall_se: float
+    expected_patients_affected: float
+
+
+def outlook(weekly: WeeklyPaths, weeks: int = HEADLINE_WEEKS) -> Outlook:
+    """The :class:`Outlook` of the first ``weeks`` weeks (at most the horizon)."""
+    weeks = min(weeks, weekly.bed_shortfall.shape[1])
+    share, se = any_shortfall(weekly, weeks)
+    affected = weekly.patients_affected[:, :weeks].sum(axis=1).mean()
+    return Outlook(weeks, share, se, float(affected))

@@ -1,8 +1,9 @@
-"""The one-way flow of a run: scenario -> history -> forecast paths -> simulated ward ->
-summaries. Each step is a function the CLI commands call."""
+"""The one-way flow of a run: scenario -> records -> forecast paths -> simulated ward ->
+summaries. Each step is a function; the CLI commands call :func:`run_scenario` and friends."""
 
 from __future__ import annotations
 
+import time
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -11,67 +12,24 @@ import pandas as pd
 
 from planner.errors import PlannerError
 from planner.forecast.requirements import check_history_length
-from planner.history import (
+from planner.records.files import (
     admissions_from_episodes,
     episodes_end,
-    inpatients_at,
     read_daily_admissions,
     read_episodes,
 )
+from planner.records.ward_history import WardHistory
+from planner.results import RunResult, RunSummary
 from planner.scenario import Scenario, load_scenario
+from planner.simulate.model import RunOptions, WardModel
+from planner.summaries.daily import summarise_daily, summarise_shifts
+from planner.summaries.weekly import outlook, weekly_paths, weekly_table
 
-#: Recorded stays shorter than this (same-minute admission and discharge) are counted as
-#: this long, so every stay is positive: one minute, in days.
-MINIMUM_RECORDED_STAY_DAYS = 1.0 / (24 * 60)
+#: Weeks of recorded census shown before the forecast.
+RECENT_WEEKS = 8
 #: Episode records may end this much before the daily admissions (a quiet last day) before
 #: the current inpatients are taken to be unknown.
 EPISODES_LAG = pd.Timedelta(days=3)
-#: Paths per chunk of simulation work: small for the SimPy engine (the progress bar moves),
-#: large for the fast engine (it works across the paths of a chunk at once).
-SIMPY_CHUNK = 100
-FAST_CHUNK = 4096
-
-
-@dataclass(frozen=True)
-class WardHistory:
-    """What the ward's files say: daily admissions (gap-free), episodes (or None) and the
-    first forecast day."""
-
-    admissions: pd.Series
-    episodes: pd.DataFrame | None
-    start: pd.Timestamp
-
-    @property
-    def last_day(self) -> pd.Timestamp:
-        return self.admissions.index[-1]
-
-    @property
-    def first_day(self) -> pd.Timestamp:
-        """The day after the history: the ward is simulated from here, as the records leave
-        it, even when the report starts later (``start``)."""
-        return self.last_day + pd.Timedelta(days=1)
-
-    @property
-    def gap_days(self) -> int:
-        """Days simulated before ``start``, not reported."""
-        return (self.start - self.first_day).days
-
-    def inpatients_elapsed(self) -> np.ndarray:
-        """Elapsed stays (days) of the patients on the ward at 00:00 of the start day."""
-        if self.episodes is None:
-            return np.zeros(0)
-        return inpatients_at(self.episodes, self.first_day)
-
-    def stays(self) -> tuple[np.ndarray | None, np.ndarray | None]:
-        """Stays (days) as known at the start and whether each has ended: stays still in
-        progress are censored at the start (see :mod:`planner.simulate.survival`). Recorded
-        stays shorter than a minute count as one minute. (None, None) without episodes."""
-        from planner.simulate.survival import stays_at
-
-        if self.episodes is None:
-            return None, None
-        durations, observed = stays_at(self.episodes, self.first_day)
-        return np.maximum(durations, MINIMUM_RECORDED_STAY_DAYS), observed
 
 
 def load_history(scenario: Scenario) -> WardHistory:
@@ -168,114 +126,87 @@ def backtest_step(scenario: Scenario, history: WardHistory, paths: int, seed: in
     return run_backtest(history.admissions, scenario.forecast, scenario.horizon_days, paths, rng)
 
 
-@dataclass(frozen=True)
-class WardInputs:
-    """What the simulation needs besides the arrival paths."""
-
-    stays: object  # planner.simulate.stays.StayDistribution
-    inpatients_elapsed: np.ndarray
-    hour_profile: np.ndarray
-
-
-def ward_inputs(scenario: Scenario, history: WardHistory) -> WardInputs:
-    """Length of stay, current inpatients and the hour-of-day profile from the history."""
+def ward_model(scenario: Scenario, history: WardHistory) -> WardModel:
+    """The simulated ward: the scenario's beds, policy and rota, with the length of stay, the
+    patients on the ward and the hour-of-day profile learned from the history."""
     from planner.simulate.arrivals import hour_profile
     from planner.simulate.stay_fit import stay_distribution
 
     stays, observed = history.stays()
     admitted = None if history.episodes is None else history.episodes["admitted_at"]
-    return WardInputs(
+    return WardModel(
+        start=history.first_day.date(),
+        settings=scenario.ward,
         stays=stay_distribution(scenario.stay, stays, observed),
         inpatients_elapsed=history.inpatients_elapsed(),
         hour_profile=hour_profile(admitted),
     )
 
 
-def simulate_step(
-    scenario: Scenario,
-    inputs: WardInputs,
-    arrivals: np.ndarray,
-    start: pd.Timestamp,
-    seed: int,
-    progress=None,
-    engine: str = "auto",
-    jobs: int = 1,
-    scheduler: str | None = None,
-):
-    """Simulate the ward for every arrival path; ``progress(done, total)`` is called as
-    chunks of paths finish. With ``scheduler`` (a dask.distributed address) the chunks run
-    on that cluster. The result depends on none of the engine, ``jobs`` or ``scheduler``."""
-    from planner.simulate.engines import chosen_engine, simulate
+def simulate_step(model: WardModel, arrivals: np.ndarray, options: RunOptions):
+    """Simulate ``model`` for every arrival path with the seed, engine, processes and cluster
+    of ``options`` (paths, seed and engine filled in); the result depends only on the seed."""
+    from planner.simulate.engines import simulate
 
-    name = chosen_engine(engine, scenario.ward)
-    chunk = SIMPY_CHUNK if name == "simpy" else FAST_CHUNK
-    return simulate(
-        arrivals,
-        start.date(),
-        scenario.ward,
-        inputs.stays,
-        inputs.inpatients_elapsed,
-        inputs.hour_profile,
-        Streams.from_seed(seed).ward,
-        engine=name,
-        jobs=jobs,
-        chunk=min(chunk, max(1, -(-arrivals.shape[0] // jobs))),
-        progress=progress,
-        scheduler=scheduler,
-    )
-
-
-@dataclass(frozen=True)
-class RunResult:
-    """Everything one run produced, from the forecast to the weekly measures per path."""
-
-    scenario: Scenario
-    history: WardHistory
-    forecast: object  # planner.forecast.ForecastResult
-    inputs: WardInputs
-    ward: object  # planner.simulate.ward.WardResult
-    weekly: object  # planner.report.weekly.WeeklyPaths
-    paths: int
-    seed: int
-    timings: dict[str, float]
+    return simulate(arrivals, model, Streams.from_seed(options.seed).ward, options)
 
 
 def run_scenario(
     scenario: Scenario,
-    paths: int | None = None,
-    seed: int | None = None,
-    progress=None,
-    forecast=None,
-    engine: str = "auto",
-    jobs: int = 1,
-    scheduler: str | None = None,
+    options: RunOptions | None = None,
+    *,
     history: WardHistory | None = None,
+    forecast=None,
+    model: WardModel | None = None,
 ) -> RunResult:
-    """Forecast, simulate and summarise one scenario. ``forecast`` reuses sample paths made
-    earlier with the same history and forecast settings (common random numbers);
-    ``scheduler`` sends the simulation's chunks of paths to a dask.distributed cluster;
-    ``history`` is the scenario's history when it has been read already."""
-    import time
-
-    from planner.report.weekly import weekly_paths
-
-    paths = scenario.paths if paths is None else paths
-    seed = scenario.seed if seed is None else seed
+    """Forecast, simulate and summarise one scenario with ``options`` (paths, seed and engine
+    default to the scenario's). ``history`` is the scenario's history when it has been read
+    already; ``forecast`` reuses sample paths made earlier with the same history, forecast
+    settings, paths and seed (common random numbers); ``model`` reuses a ward model made from
+    the same history and stay settings (its beds and rota are replaced by the scenario's)."""
+    options = (options or RunOptions()).with_defaults(
+        scenario.paths, scenario.seed, scenario.engine
+    )
     timings: dict[str, float] = {}
     clock = time.perf_counter()
     history = load_history(scenario) if history is None else history
     timings["read_history_s"] = time.perf_counter() - clock
     clock = time.perf_counter()
     if forecast is None:
-        forecast = forecast_step(scenario, history, paths, seed)
+        forecast = forecast_step(scenario, history, options.paths, options.seed)
     timings["forecast_s"] = time.perf_counter() - clock
     clock = time.perf_counter()
-    inputs = ward_inputs(scenario, history)
-    ward = simulate_step(
-        scenario, inputs, forecast.paths, history.first_day, seed, progress, engine, jobs, scheduler
-    )
+    if model is None:
+        model = ward_model(scenario, history)
+    else:
+        model = model.with_settings(scenario.ward)
+    ward = simulate_step(model, forecast.paths, options)
     timings["simulate_s"] = time.perf_counter() - clock
     clock = time.perf_counter()
     weekly = weekly_paths(ward, history.start)
+    summary = summarise_run(ward, weekly, history)
     timings["summarise_s"] = time.perf_counter() - clock
-    return RunResult(scenario, history, forecast, inputs, ward, weekly, paths, seed, timings)
+    return RunResult(
+        scenario=scenario,
+        history=history,
+        forecast=forecast,
+        model=model,
+        ward=ward,
+        weekly=weekly,
+        summary=summary,
+        paths=options.paths,
+        seed=options.seed,
+        timings=timings,
+    )
+
+
+def summarise_run(ward, weekly, history: WardHistory) -> RunSummary:
+    """The tables across paths of a simulated ward and its weekly measures."""
+    census = history.census()
+    return RunSummary(
+        weekly=weekly_table(weekly),
+        daily=summarise_daily(ward),
+        shifts=summarise_shifts(ward),
+        outlook=outlook(weekly),
+        recent_census=None if census is None else census.iloc[-7 * RECENT_WEEKS :],
+    )

@@ -1,0 +1,106 @@
+"""What a run, a comparison of plans and a hindcast produce: the objects reports read.
+
+The runs (:mod:`planner.runs`) build these; the report writers (:mod:`planner.report`) only
+read them, so a page never recomputes, rescores or re-reads what a run made.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from planner.forecast.result import ForecastResult
+from planner.records.ward_history import WardHistory
+from planner.scenario import Scenario
+from planner.simulate.model import WardModel
+from planner.simulate.result import WardResult
+from planner.summaries.weekly import Outlook, WeeklyPaths
+
+#: The file beside a hindcast's tables that ties them to one setup (see
+#: :mod:`planner.report.hindcast_report`).
+HINDCAST_SIDECAR = "hindcast.json"
+
+
+@dataclass(frozen=True)
+class RunSummary:
+    """The tables of a run across paths: ``weekly`` (weekly.csv), ``daily`` (daily.csv),
+    ``shifts`` (shifts.csv), the headline :class:`Outlook`, and the recorded midnight census
+    of the weeks before the forecast (None without episodes)."""
+
+    weekly: pd.DataFrame
+    daily: pd.DataFrame
+    shifts: pd.DataFrame
+    outlook: Outlook
+    recent_census: pd.Series | None
+
+
+@dataclass(frozen=True)
+class RunResult:
+    """Everything one run produced, from the forecast to the weekly measures per path and
+    the summary tables."""
+
+    scenario: Scenario
+    history: WardHistory
+    forecast: ForecastResult
+    model: WardModel
+    ward: WardResult
+    weekly: WeeklyPaths
+    summary: RunSummary
+    paths: int
+    seed: int
+    timings: dict[str, float]
+
+
+@dataclass(frozen=True)
+class Comparison:
+    """Plans run with common random numbers: the runs (the first is the reference), the
+    comparison.csv table, the costs.csv table (None when no plan gives costs) and the glance
+    table (one row per plan over the horizon)."""
+
+    runs: tuple[RunResult, ...]
+    table: pd.DataFrame
+    costs: pd.DataFrame | None
+    glance: pd.DataFrame
+
+
+@dataclass(frozen=True)
+class HindcastResult:
+    """``table``: the hindcast.csv rows; ``summary``: scores by horizon week (0 = all);
+    ``reliability``: predicted-probability bins per threshold; ``pit_counts``: PIT histogram
+    (10 bins) of the pit_sample days with its chi-square statistic and p-value;
+    ``last_day``: the last day of the history; ``weeks``: whole weeks from the first origin
+    to the end of the history."""
+
+    scenario_name: str
+    scenario_key: str
+    origins: pd.DatetimeIndex
+    horizon_days: int
+    last_day: pd.Timestamp
+    weeks: int
+    paths: int
+    seed: int
+    table: pd.DataFrame
+    summary: pd.DataFrame
+    reliability: pd.DataFrame
+    pit_counts: np.ndarray
+    chi_square: float
+    p_value: float
+    notes: tuple[str, ...]
+
+    def overall(self) -> pd.Series:
+        """The summary row over all horizon weeks."""
+        return self.summary[self.summary["horizon_week"] == 0].iloc[0]
+
+
+@dataclass(frozen=True)
+class HindcastQuote:
+    """What a run report quotes from the newest hindcast saved for the same setup: weeks
+    covered, number of past start dates, the day it was made and the share of days inside
+    its 80% census band."""
+
+    weeks: int
+    origins: int
+    created: str
+    coverage_80: float

@@ -1,0 +1,97 @@
+"""Comparing ward plans with common random numbers.
+
+Every scenario is run with the first scenario's seed and number of paths, so path i of every
+plan sees the same forecast admissions, the same arrival times and the same stays: a
+difference between plans comes from the plans, not from noise. Plans on the same history
+with the same forecast settings share one forecast, and plans with the same stay settings
+share one fitted length of stay. The tables are made by :mod:`planner.summaries.comparison`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+from pathlib import Path
+
+from planner.errors import PlannerError
+from planner.results import Comparison, RunResult
+from planner.runs.run import load_history, run_scenario
+from planner.scenario import Scenario, load_scenario
+from planner.simulate.model import RunOptions
+from planner.summaries.comparison import PlanPaths, comparison_table, cost_table, glance_table
+
+
+def _records_key(scenario: Scenario) -> tuple:
+    return (scenario.admissions_file, scenario.episodes_file, scenario.history_format)
+
+
+def _forecast_key(scenario: Scenario) -> tuple:
+    return (*_records_key(scenario), scenario.forecast, scenario.horizon_weeks, scenario.start)
+
+
+def _model_key(scenario: Scenario) -> tuple:
+    return (*_records_key(scenario), scenario.stay)
+
+
+def _check_alike(scenarios: list[Scenario]) -> None:
+    first = scenarios[0]
+    for other in scenarios[1:]:
+        for key in ("horizon_weeks", "start"):
+            if getattr(other, key) != getattr(first, key):
+                raise PlannerError(
+                    f"{other.source}: {key}: {getattr(other, key)} differs from "
+                    f"{getattr(first, key)} in {first.source.name}; compared plans must "
+                    f"cover the same weeks"
+                )
+
+
+def _run_one(file: Path, options: RunOptions) -> RunResult:
+    """One scenario of a comparison, as run on a cluster worker."""
+    return run_scenario(load_scenario(file), options)
+
+
+def run_all(files: list[Path], options: RunOptions, progress=None) -> tuple[RunResult, ...]:
+    """Run every scenario with common random numbers (the first scenario's paths and seed
+    unless ``options`` gives them), reusing forecasts and fitted stays where the history and
+    settings agree; ``progress(label)`` gives the progress callback of each plan. With a
+    scheduler in ``options``, each scenario runs on a dask worker (the forecast is then made
+    on each worker, with the same result)."""
+    scenarios = [load_scenario(file) for file in files]
+    _check_alike(scenarios)
+    first = scenarios[0]
+    options = replace(
+        options,
+        paths=first.paths if options.paths is None else options.paths,
+        seed=first.seed if options.seed is None else options.seed,
+    )
+    histories = [load_history(scenario) for scenario in scenarios]  # bad input first
+    if options.scheduler is not None:
+        from planner.simulate.distributed import map_chunks
+
+        one_process = replace(options, jobs=1, scheduler=None, progress=None)
+        arguments = [(scenario.source, one_process) for scenario in scenarios]
+        return tuple(map_chunks(options.scheduler, _run_one, arguments))
+    forecasts: dict[tuple, object] = {}
+    models: dict[tuple, object] = {}
+    runs = []
+    for number, (scenario, history) in enumerate(zip(scenarios, histories, strict=True), 1):
+        step = None if progress is None else progress(f"{number}/{len(scenarios)}")
+        run = run_scenario(
+            scenario,
+            replace(options, progress=step),
+            history=history,
+            forecast=forecasts.get(_forecast_key(scenario)),
+            model=models.get(_model_key(scenario)),
+        )
+        forecasts.setdefault(_forecast_key(scenario), run.forecast)
+        models.setdefault(_model_key(scenario), run.model)
+        runs.append(run)
+    return tuple(runs)
+
+
+def compare_scenarios(files: list[Path], options: RunOptions, progress=None) -> Comparison:
+    """Run and compare scenarios (the first is the reference)."""
+    if len(files) < 2:
+        raise PlannerError("compare: give at least two scenario files")
+    runs = run_all(files, options, progress)
+    plans = [PlanPaths(run.scenario.name, run.scenario.costs, run.weekly) for run in runs]
+    return Comparison(runs, comparison_table(plans), cost_table(plans), glance_table(plans))

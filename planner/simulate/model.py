@@ -1,0 +1,79 @@
+"""The ward a run simulates, and how the run is carried out.
+
+:class:`WardModel` is built once per plan from the scenario and the ward's records: the beds
+over time, the overflow policy and the nurse rota (:class:`WardSettings`), the length of stay,
+the patients on the ward when the simulation starts and the hour-of-day profile of emergency
+arrivals. Every engine takes it with the forecast paths of daily admissions. A plan that changes
+only beds or the rota reuses the same fitted stays with :meth:`WardModel.with_settings`.
+
+:class:`RunOptions` says how a run is carried out (paths, seed, engine, processes, cluster,
+progress); the engine, ``jobs`` and the cluster change the run time, never the numbers.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field, replace
+from datetime import date
+
+import numpy as np
+
+from planner.errors import PlannerError
+from planner.simulate.settings import WardSettings
+from planner.simulate.stays import StayDistribution
+
+
+@dataclass(frozen=True, eq=False)
+class WardModel:
+    """The simulated ward. ``start``: first simulated day (the simulation starts at its 00:00);
+    ``settings``: beds, dated bed changes, overflow policy and staffing; ``stays``: length of
+    stay (days); ``inpatients_elapsed``: days already spent by each patient in a bed at the
+    start; ``hour_profile``: share of a day's emergency arrivals in each hour (24 values)."""
+
+    start: date
+    settings: WardSettings
+    stays: StayDistribution
+    inpatients_elapsed: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    hour_profile: np.ndarray = field(default_factory=lambda: np.full(24, 1 / 24))
+
+    def __post_init__(self) -> None:
+        elapsed = np.asarray(self.inpatients_elapsed, dtype=float)
+        profile = np.asarray(self.hour_profile, dtype=float)
+        if elapsed.ndim != 1 or not np.all(np.isfinite(elapsed)):
+            raise PlannerError("inpatients_elapsed must be a 1-D array of finite days")
+        if np.any(elapsed < 0):
+            raise PlannerError("inpatients_elapsed must be >= 0 days")
+        if profile.shape != (24,) or np.any(profile < 0):
+            raise PlannerError("hour_profile must be 24 probabilities >= 0")
+        if not np.isclose(profile.sum(), 1.0):
+            raise PlannerError("hour_profile must sum to 1")
+        object.__setattr__(self, "inpatients_elapsed", elapsed)
+        object.__setattr__(self, "hour_profile", profile)
+
+    def with_settings(self, settings: WardSettings) -> WardModel:
+        """The same ward (stays, inpatients, arrival hours) with other beds, policy or rota."""
+        return replace(self, settings=settings)
+
+
+@dataclass(frozen=True)
+class RunOptions:
+    """How a run is carried out. ``paths`` and ``seed``: None for the scenario's; ``engine``:
+    "auto", "simpy" or "fast" (None for the scenario's); ``jobs``: processes; ``scheduler``:
+    address of a dask.distributed scheduler to run the simulation on; ``progress(done,
+    total)``: called as chunks of paths finish."""
+
+    paths: int | None = None
+    seed: int | None = None
+    engine: str | None = None
+    jobs: int = 1
+    scheduler: str | None = None
+    progress: Callable[[int, int], None] | None = field(default=None, compare=False)
+
+    def with_defaults(self, paths: int, seed: int, engine: str) -> RunOptions:
+        """These options with ``paths``, ``seed`` and ``engine`` filled in where not given."""
+        return replace(
+            self,
+            paths=paths if self.paths is None else self.paths,
+            seed=seed if self.seed is None else self.seed,
+            engine=engine if self.engine is None else self.engine,
+        )
