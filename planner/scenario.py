@@ -29,19 +29,9 @@ from planner.simulate.settings import (
     WardSettings,
 )
 from planner.simulate.staffing import validate_staffing
+from planner.summaries.comparison import Costs
 
 DEMO_NAME = "baseline.toml"
-
-
-@dataclass(frozen=True)
-class Costs:
-    """Unit costs (any one currency): per open bed-day, per rostered nurse shift, per
-    diverted patient, per patient-hour spent waiting for a bed."""
-
-    bed_day: float = 0.0
-    nurse_shift: float = 0.0
-    diverted_patient: float = 0.0
-    waiting_hour: float = 0.0
 
 
 @dataclass(frozen=True)

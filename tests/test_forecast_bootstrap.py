@@ -8,7 +8,7 @@ from references.forecasting import ar1_error_variance, ar1_psi, sum_error_varian
 
 from planner.forecast.ar import constant_only
 from planner.forecast.bootstrap import to_counts
-from planner.forecast.paths import model_paths
+from planner.forecast.paths import SeriesDesign, model_paths
 from planner.forecast.settings import ForecastSettings
 
 PHI, SIGMA2, HORIZON = 0.6, 1.0, 14
@@ -41,9 +41,7 @@ def check_against_box_jenkins(strategy, n, n_paths, seed):
     settings_ = ForecastSettings(order=1, weekday=False, annual=False)
     result = model_paths(
         strategy,
-        x,
-        constant_only(n),
-        np.ones((HORIZON, 1)),
+        SeriesDesign(x, constant_only(n), np.ones((HORIZON, 1))),
         settings_,
         n_paths,
         np.random.default_rng(seed + 1),
@@ -91,18 +89,14 @@ def test_refit_paths_are_at_least_as_wide():
     future = np.ones((10, 1))
     plain = model_paths(
         "recursive",
-        x,
-        constant_only(150),
-        future,
+        SeriesDesign(x, constant_only(150), future),
         ForecastSettings(order=1),
         4000,
         np.random.default_rng(1),
     )
     refit = model_paths(
         "recursive",
-        x,
-        constant_only(150),
-        future,
+        SeriesDesign(x, constant_only(150), future),
         ForecastSettings(order=1, refit=True, refit_series=40),
         4000,
         np.random.default_rng(1),

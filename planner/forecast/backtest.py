@@ -35,7 +35,7 @@ from planner.errors import PlannerError
 from planner.forecast import metrics
 from planner.forecast.ar import design
 from planner.forecast.bootstrap import to_counts
-from planner.forecast.paths import STRATEGIES, model_paths
+from planner.forecast.paths import STRATEGIES, SeriesDesign, model_paths
 from planner.forecast.requirements import origin_days
 from planner.forecast.result import QUANTILE_LEVELS, BacktestResult
 
@@ -96,16 +96,13 @@ def backtest_arrays(
         scale = metrics.mase_scale(training)
         for strategy, strategy_rng in zip(STRATEGIES, origin_rng.spawn(3), strict=True):
             path_rng, rounding_rng = strategy_rng.spawn(2)
-            result = model_paths(
-                strategy,
+            series = SeriesDesign(
                 training,
                 deterministic_all[:origin],
                 deterministic_all[origin : origin + horizon],
-                settings,
-                n_paths,
-                path_rng,
                 names,
             )
+            result = model_paths(strategy, series, settings, n_paths, path_rng)
             counts = to_counts(result.paths[:, : observed.shape[0]], rounding_rng)
             quantiles = np.quantile(counts, SCORED_LEVELS, axis=0).T
             inside = (counts >= quantiles[:, 2]) & (counts <= quantiles[:, 6])

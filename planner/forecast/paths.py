@@ -38,25 +38,37 @@ class StrategyPaths:
     one_step: ArFit | None
 
 
+@dataclass(frozen=True)
+class SeriesDesign:
+    """A series to fit and forecast: ``values`` (admissions per day), ``deterministic`` (the
+    calendar terms aligned to it, one row per day), ``future`` (the same terms for the forecast
+    days) and the terms' ``names``."""
+
+    values: np.ndarray
+    deterministic: np.ndarray
+    future: np.ndarray
+    names: tuple[str, ...] | None = None
+
+
 def model_paths(
     strategy: str,
-    values: np.ndarray,
-    deterministic: np.ndarray,
-    future_deterministic: np.ndarray,
+    design: SeriesDesign,
     settings,
     n_paths: int,
     rng: np.random.Generator,
-    names: tuple[str, ...] | None = None,
+    *,
     engine: str = "numpy",
     residual_pool: np.ndarray | None = None,
     error_paths: np.ndarray | None = None,
 ) -> StrategyPaths:
-    """Fit ``strategy`` on ``values`` (with ``deterministic`` aligned to it) and simulate
-    ``n_paths`` paths over the ``H = len(future_deterministic)`` following days.
+    """Fit ``strategy`` on the design's values and simulate ``n_paths`` paths over the
+    ``H = len(design.future)`` following days.
 
     ``residual_pool`` replaces the recursive model's in-sample residuals and ``error_paths``
     the direct model's aligned residual paths (used for ``residuals="backtest"``).
     """
+    values, deterministic, names = design.values, design.deterministic, design.names
+    future_deterministic = design.future
     horizon = future_deterministic.shape[0]
     if strategy == "seasonal_naive":
         point = seasonal_naive_point(values, horizon)

@@ -18,7 +18,7 @@ from planner.forecast.adjust import adjust_paths
 from planner.forecast.backtest import backtest_arrays
 from planner.forecast.bootstrap import to_counts
 from planner.forecast.deterministic import terms_for_history
-from planner.forecast.paths import model_paths
+from planner.forecast.paths import SeriesDesign, model_paths
 from planner.forecast.result import BacktestResult, ForecastResult, ForecastSummary
 from planner.schema import choices
 
@@ -110,13 +110,10 @@ def forecast_admissions(
         error_paths = backtest.residuals["direct"]
     result = model_paths(
         strategy,
-        values,
-        deterministic,
-        future_deterministic,
+        SeriesDesign(values, deterministic, future_deterministic, tuple(keep)),
         settings,
         n_paths,
         path_rng,
-        tuple(keep),
         engine="statsmodels",
         residual_pool=residual_pool,
         error_paths=error_paths,

@@ -80,4 +80,3 @@ class ForecastResult:
         for level, values in zip(self.quantile_levels, quantiles, strict=True):
             frame[quantile_column(level)] = values
         return frame
-

@@ -19,6 +19,7 @@ from datetime import date
 import numpy as np
 
 from planner.errors import PlannerError
+from planner.schema import choices
 from planner.simulate.settings import WardSettings
 from planner.simulate.stays import StayDistribution
 
@@ -47,6 +48,9 @@ class WardModel:
             raise PlannerError("hour_profile must be 24 probabilities >= 0")
         if not np.isclose(profile.sum(), 1.0):
             raise PlannerError("hour_profile must sum to 1")
+        if self.settings.policy not in choices("beds.policy"):
+            policies = ", ".join(choices("beds.policy"))
+            raise PlannerError(f"policy must be one of {policies}, got {self.settings.policy!r}")
         object.__setattr__(self, "inpatients_elapsed", elapsed)
         object.__setattr__(self, "hour_profile", profile)
 

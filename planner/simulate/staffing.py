@@ -105,4 +105,3 @@ def shortfall(required: np.ndarray, rostered: np.ndarray) -> np.ndarray:
     """Nurses short on a shift: max(required - rostered, 0), int32."""
     gap = np.asarray(required, dtype=np.int64) - np.asarray(rostered, dtype=np.int64)
     return np.maximum(gap, 0).astype(np.int32)
-

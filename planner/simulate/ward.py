@@ -30,15 +30,12 @@ import numpy as np
 import simpy
 
 from planner.errors import PlannerError
-from planner.schema import choices
 from planner.simulate.arrivals import arrival_times
 from planner.simulate.result import PATH_DAILY, WardResult, ward_result
 from planner.simulate.settings import WardSettings
 
 if TYPE_CHECKING:
     from planner.simulate.model import WardModel
-
-POLICIES = choices("beds.policy")
 
 
 def beds_open_by_day(ward: WardSettings, start: date, days: int) -> np.ndarray:

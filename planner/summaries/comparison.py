@@ -16,7 +16,6 @@ shortfall avoided is the change in plan cost divided by the shortfalls avoided.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
 
 import numpy as np
 import pandas as pd
@@ -24,14 +23,22 @@ import pandas as pd
 from planner.summaries.monte_carlo import paired_difference
 from planner.summaries.weekly import HEADLINE_WEEKS, WeeklyPaths, any_shortfall, weekly_table
 
-if TYPE_CHECKING:
-    from planner.scenario import Costs
-
 MEASURES = {
     "p_bed_shortfall": "bed_shortfall",
     "p_staff_shortfall": "staff_shortfall",
     "expected_patients_affected": "patients_affected",
 }
+
+
+@dataclass(frozen=True)
+class Costs:
+    """Unit costs (any one currency): per open bed-day, per rostered nurse shift, per
+    diverted patient, per patient-hour spent waiting for a bed."""
+
+    bed_day: float = 0.0
+    nurse_shift: float = 0.0
+    diverted_patient: float = 0.0
+    waiting_hour: float = 0.0
 
 
 @dataclass(frozen=True)
