@@ -446,6 +446,7 @@ def test_summaries_across_paths():
 @pytest.mark.parametrize(
     ("change", "message"),
     [
+        ({"settings": WardSettings(policy="queue")}, "policy"),
         (
             {"settings": WardSettings(beds=2, bed_changes=(BedChange(START, START, -3),))},
             "negative",
