@@ -147,7 +147,7 @@ def _check_range(where: str, start: date, end: date) -> None:
         raise PlannerError(f"{where}: end {end} is before start {start}")
 
 
-def _shifts(document: dict[str, Any], where: str) -> tuple[Shift, ...]:
+def _shifts(document: dict[str, Any]) -> tuple[Shift, ...]:
     items = _items(document, "staffing.shift")
     if not items:
         return StaffingSettings().shifts
@@ -170,7 +170,7 @@ def _ward(document: dict[str, Any], where: str) -> WardSettings:
     for number, item in enumerate(_items(document, "beds.change"), start=1):
         _check_range(f"{where}: beds.change[{number}]", item["start"], item["end"])
         changes.append(BedChange(item["start"], item["end"], item["change"]))
-    shifts = _shifts(document, where)
+    shifts = _shifts(document)
     names = {shift.name for shift in shifts}
     overrides = []
     for number, item in enumerate(_items(document, "staffing.override"), start=1):
@@ -191,6 +191,10 @@ def _ward(document: dict[str, Any], where: str) -> WardSettings:
     return WardSettings(beds["base"], tuple(changes), beds["policy"], staffing)
 
 
+#: Forecast settings named otherwise than their key in the scenario's [forecast] table.
+_FORECAST_FIELDS = {"holidays": "holiday_dates", "backtest_every_days": "backtest_every"}
+
+
 def _forecast(document: dict[str, Any], where: str) -> ForecastSettings:
     values = _table(document, "forecast")
     surges = []
@@ -198,25 +202,9 @@ def _forecast(document: dict[str, Any], where: str) -> ForecastSettings:
         _check_range(f"{where}: demand.surge[{number}]", item["start"], item["end"])
         surges.append(Surge(item["start"], item["end"], float(item["factor"])))
     demand = DemandAdjustment(float(_table(document, "demand")["growth"]), tuple(surges))
-    return ForecastSettings(
-        strategy=values["strategy"],
-        max_lag=values["max_lag"],
-        criterion=values["criterion"],
-        order=values["order"],
-        weekday=values["weekday"],
-        annual=values["annual"],
-        fourier_pairs=values["fourier_pairs"],
-        trend=values["trend"],
-        holiday_dates=tuple(values["holidays"]),
-        holiday_country=values["holiday_country"],
-        residuals=values["residuals"],
-        refit=values["refit"],
-        refit_series=values["refit_series"],
-        backtest_origins=values["backtest_origins"],
-        backtest_every=values["backtest_every_days"],
-        backtest_paths=values["backtest_paths"],
-        demand=demand,
-    )
+    fields = {_FORECAST_FIELDS.get(key, key): value for key, value in values.items()}
+    fields["holiday_dates"] = tuple(fields["holiday_dates"])
+    return ForecastSettings(**fields, demand=demand)
 
 
 def _stay(document: dict[str, Any], where: str) -> StaySettings:
