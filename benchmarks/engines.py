@@ -5,15 +5,16 @@ threads do not matter here (no linear algebra); set OPENBLAS_NUM_THREADS=1 to ru
 
 Wards: the demo ward is the bundled demo's (``scenarios/baseline.toml``): its beds, staffing
 and policy, its recorded stays (Kaplan-Meier) and current inpatients, with Poisson arrivals at
-its mean rate; the 30- and 300-bed wards are synthetic (lognormal stays, 85% occupancy).
+its mean rate; the 30- and 300-bed wards are synthetic (lognormal stays, 85% occupancy), and
+an overloaded 300-bed ward (150 admissions a day, mean stay 1.8 days) is run end to end.
 
 Rows:
 - reference: a minimal SimPy loop of the same ward ("wait" policy), one process per patient
   queuing for a ``simpy.Resource``, written here;
 - simpy model: :func:`planner.simulate.ward.simulate_ward`;
-- fast, spawned / counter: :func:`planner.simulate.fast.simulate_ward_fast` with the SimPy
-  model's random streams (same results) or the counter-based streams;
-- fast, jobs=1 / jobs=2: :func:`planner.simulate.engines.simulate` with the default streams;
+- fast: :func:`planner.simulate.fast.simulate_ward_fast` (the compiled loop, random draws
+  included; compiled once before timing, as the on-disk cache makes it for a user);
+- fast, jobs=1 / jobs=2: :func:`planner.simulate.engines.simulate` in one or two processes;
 - fast + summaries: the fast engine, then the weekly, daily and shift summaries read from the
   result's arrays (what ``planner run`` does after the forecast).
 
@@ -42,22 +43,14 @@ import numpy as np
 import simpy
 
 from planner.allocator import keep_freed_memory
-from planner.runs.run import load_history, ward_inputs
+from planner.runs.run import load_history, ward_model
 from planner.scenario import load_scenario
+from planner.simulate import fast, sampling
 from planner.simulate.engines import simulate
-from planner.simulate.fast import (
-    BLOCK_PATHS,
-    arrival_rows,
-    by_slot,
-    simpy_clock,
-    simulate_ward_fast,
-)
-from planner.simulate.fast_beds import allocate_beds
-from planner.simulate.fast_records import Pieces, daily_records
-from planner.simulate.fast_streams import draw_block
+from planner.simulate.model import RunOptions, WardModel
 from planner.simulate.settings import WardSettings
 from planner.simulate.stays import Lognormal
-from planner.simulate.ward import beds_open_by_day, simulate_ward
+from planner.simulate.ward import simulate_ward
 from planner.summaries.daily import summarise_daily, summarise_shifts
 from planner.summaries.weekly import weekly_paths
 
@@ -100,28 +93,29 @@ def timed(function, *arguments, repeats: int = 3, **keywords) -> float:
     return best
 
 
-def with_summaries(arrivals, *arguments):
-    result = simulate_ward_fast(arrivals, *arguments)
-    weekly_paths(result, arguments[0])
+def with_summaries(arrivals, model, seed):
+    result = fast.simulate_ward_fast(arrivals, model, seed)
+    weekly_paths(result, model.start)
     summarise_daily(result)
     summarise_shifts(result)
 
 
-def synthetic_inputs(beds: int, paths: int):
-    """A ward of ``beds`` beds at ``OCCUPANCY``: Poisson arrivals, lognormal stays, current
-    inpatients with exponential elapsed stays, arrivals spread evenly over the day."""
-    rate = OCCUPANCY * beds / MEAN_STAY
+def synthetic_inputs(beds: int, paths: int, rate: float | None = None, mean: float = MEAN_STAY):
+    """A ward of ``beds`` beds at ``OCCUPANCY`` (or ``rate`` admissions a day): Poisson
+    arrivals, lognormal stays of mean ``mean`` days, patients on the ward at the start with
+    exponential elapsed stays, arrivals spread evenly over the day."""
+    rate = OCCUPANCY * beds / mean if rate is None else rate
     arrivals = np.random.default_rng(SEED).poisson(rate, size=(paths, DAYS))
-    elapsed = np.random.default_rng(SEED + 1).exponential(MEAN_STAY, round(OCCUPANCY * beds))
-    stays = Lognormal.from_mean_sd(MEAN_STAY, SD_STAY)
-    return arrivals, (START, WardSettings(beds=beds), stays, elapsed, UNIFORM, SEED)
+    elapsed = np.random.default_rng(SEED + 1).exponential(mean, round(OCCUPANCY * beds))
+    stays = Lognormal.from_mean_sd(mean, SD_STAY * mean / MEAN_STAY)
+    return arrivals, WardModel(START, WardSettings(beds=beds), stays, elapsed, UNIFORM)
 
 
-def ward_case(arrivals, arguments, simpy_paths):
-    """Rows (name, paths, patients/s) for one ward (``arguments``: those of the engines after
-    the arrivals)."""
+def ward_case(arrivals, model, simpy_paths):
+    """Rows (name, paths, patients/s) for one ward."""
     paths = arrivals.shape[0]
-    beds, stays = arguments[1].beds, arguments[2]
+    beds, stays = model.settings.beds, model.stays
+    fast.simulate_ward_fast(arrivals[:2], model, SEED)  # compiled (or loaded) before timing
     rows = []
     if simpy_paths:
         few = arrivals[:simpy_paths]
@@ -129,27 +123,29 @@ def ward_case(arrivals, arguments, simpy_paths):
         rows.append(("reference simpy loop", simpy_paths,
                      patients / timed(reference_loop, few, beds, stays, SEED)))  # fmt: skip
         rows.append(("simpy model", simpy_paths,
-                     patients / timed(simulate_ward, few, *arguments)))  # fmt: skip
+                     patients / timed(simulate_ward, few, model, SEED)))  # fmt: skip
     patients = arrivals.sum()
-    for streams in ("spawned", "counter"):
-        seconds = timed(simulate_ward_fast, arrivals, *arguments, streams=streams)
-        rows.append((f"fast, {streams} streams", paths, patients / seconds))
+    rows.append(("fast", paths, patients / timed(fast.simulate_ward_fast, arrivals, model, SEED)))
     # Alternated, best of five each, so that a change in the machine's load hits both.
     seconds = {1: float("inf"), 2: float("inf")}
     for _ in range(5):
         for jobs in seconds:
-            seconds[jobs] = min(seconds[jobs], timed(simulate, arrivals, *arguments, engine="fast",
-                                                     jobs=jobs, repeats=1))  # fmt: skip
+            options = RunOptions(engine="fast", jobs=jobs)
+            seconds[jobs] = min(seconds[jobs], timed(simulate, arrivals, model, SEED, options,
+                                                     repeats=1))  # fmt: skip
     rows += [(f"fast, jobs={jobs}", paths, patients / value) for jobs, value in seconds.items()]
-    rows.append(("fast + summaries", paths, patients / timed(with_summaries, arrivals, *arguments)))
+    rows.append(
+        ("fast + summaries", paths, patients / timed(with_summaries, arrivals, model, SEED))
+    )
     return rows
 
 
 def peak_memory(paths: int, days: int) -> float:
     """Peak memory (GB) traced while the fast engine simulates the demo ward."""
-    arrivals, arguments = demo_inputs(paths, days)
+    arrivals, model = demo_inputs(paths, days)
+    fast.simulate_ward_fast(arrivals[:2], model, SEED)
     tracemalloc.start()
-    simulate_ward_fast(arrivals, *arguments)
+    fast.simulate_ward_fast(arrivals, model, SEED)
     peak = tracemalloc.get_traced_memory()[1]
     tracemalloc.stop()
     return peak / 1e9
@@ -157,30 +153,25 @@ def peak_memory(paths: int, days: int) -> float:
 
 @functools.cache
 def _demo_ward():
-    """The bundled demo (scenarios/baseline.toml): ward settings, its recorded stays
-    (Kaplan-Meier), current inpatients, hour-of-day profile, first day and mean admissions per
-    day over the last year of its history."""
+    """The bundled demo (scenarios/baseline.toml): its ward model (beds, staffing, policy,
+    recorded stays (Kaplan-Meier), patients on the ward, hour-of-day profile) and mean
+    admissions per day over the last year of its history."""
     scenario = load_scenario()
     history = load_history(scenario)
-    inputs = ward_inputs(scenario, history)
-    rate = float(history.admissions.iloc[-365:].mean())
-    return scenario.ward, inputs, history.first_day.date(), rate
+    return ward_model(scenario, history), float(history.admissions.iloc[-365:].mean())
 
 
 def demo_inputs(paths: int, days: int = DAYS):
-    """Arrivals (Poisson at the demo's mean rate) and the other arguments of the engines for
-    the demo ward: its beds, staffing and policy, recorded stays and current inpatients."""
-    ward, inputs, start, rate = _demo_ward()
-    arrivals = np.random.default_rng(SEED).poisson(rate, size=(paths, days))
-    arguments = (start, ward, inputs.stays, inputs.inpatients_elapsed, inputs.hour_profile, SEED)
-    return arrivals, arguments
+    """Arrivals (Poisson at the demo's mean rate) and the demo's ward model."""
+    model, rate = _demo_ward()
+    return np.random.default_rng(SEED).poisson(rate, size=(paths, days)), model
 
 
 def first_call(jobs: int, paths: int) -> None:
     """Print the seconds of one fast-engine call (run in a fresh process by ``first_run``)."""
-    arrivals, arguments = demo_inputs(paths)
+    arrivals, model = demo_inputs(paths)
     clock = time.perf_counter()
-    simulate(arrivals, *arguments, engine="fast", jobs=jobs)
+    simulate(arrivals, model, SEED, RunOptions(engine="fast", jobs=jobs))
     print(time.perf_counter() - clock)
 
 
@@ -208,51 +199,85 @@ def print_first_runs(paths: int) -> None:
     print(f"jobs=2 speed-up over jobs=1: {seconds[1] / seconds[2]:.2f}x")
 
 
-def _layout(rows, stay_days):
-    return by_slot(rows), by_slot(stay_days, 24.0)
-
-
-def phases(paths: int = BLOCK_PATHS) -> list[tuple[str, float]]:
-    """Nanoseconds per patient of each step of one fast-engine block of the demo ward (best of
-    three): the random draws, arrival times, the (slots x paths) layout, the SimPy clock, the
-    bed allocation loop, the daily and shift records."""
-    arrivals, (start, ward, stays, elapsed, profile, seed) = demo_inputs(paths)
+def phases(paths: int = 2048) -> list[tuple[str, float]]:
+    """Nanoseconds per patient of each step of the fast engine on ``paths`` demo paths (best of
+    three): each path's seed and generator and its raw draws, the arrival hours (compiled),
+    the stays and remaining stays from their uniforms, the simulation loop (compiled), and
+    the records made into a result (nurses required and short)."""
+    arrivals, model = demo_inputs(paths)
     counts = arrivals.astype(np.int64)
-    totals = counts.sum(axis=1)
-    order = np.argsort(-totals, kind="stable")
-    beds = beds_open_by_day(ward, start, DAYS)
-    starts = np.sort([shift.start_hour for shift in ward.staffing.shifts])
+    days = counts.shape[1]
+    fast.simulate_ward_fast(arrivals[:2], model, SEED)
     best: dict[str, float] = {}
 
-    def step(name, function, *arguments, **keywords):
+    def step(name, function, *arguments):
         clock = time.perf_counter()
-        value = function(*arguments, **keywords)
+        value = function(*arguments)
         best[name] = min(best.get(name, float("inf")), time.perf_counter() - clock)
         return value
 
+    def seeds_and_draws():
+        raw = np.empty(2 * counts.sum(), dtype=np.uint64)
+        offsets = np.concatenate([[0], np.cumsum(counts.sum(axis=1))])
+        for i in range(paths):
+            bits = np.random.PCG64(sampling.path_seed(SEED, i))
+            raw[2 * offsets[i] : 2 * offsets[i + 1]] = bits.random_raw(
+                2 * (offsets[i + 1] - offsets[i])
+            )
+            bits.advance(sampling.STREAM_SPACING)
+            bits.random_raw(model.inpatients_elapsed.size)
+            bits.advance(sampling.STREAM_SPACING)
+            bits.random_raw(offsets[i + 1] - offsets[i])
+        return raw
+
     for _ in range(3):
-        draws = step("random draws", draw_block, "spawned", seed, 0, totals, order, stays, elapsed)
-        rows = step("arrival times", arrival_rows, draws.hour_uniforms, draws.within_uniforms,
-                    counts[order], profile)  # fmt: skip
-        arrival, stay = step("layout (slots x paths)", _layout, rows, draws.stay_days)
-        clock = step("SimPy clock", simpy_clock, arrival)
-        remaining = 24.0 * draws.remaining_days
-        times = step("bed allocation", allocate_beds, arrival, clock, stay, totals[order],
-                     remaining[order], beds, wait=True)  # fmt: skip
-        step("daily and shift records", daily_records, times, arrival, order, counts, remaining,
-             Pieces(DAYS, starts))  # fmt: skip
-    patients = int(totals.sum())
+        raw = step("seeds and raw draws", seeds_and_draws)
+        step("arrival hours", sampling.arrival_hours, raw, counts, model.hour_profile)
+        step(
+            "stays from uniforms", model.stays.from_uniforms, sampling.uniforms(raw[: counts.sum()])
+        )
+        inputs = sampling.draw_inputs(model, counts, SEED)
+        step("simulation and records", fast.simulate_drawn, inputs, model, days)
+    patients = int(counts.sum())
     return [(name, 1e9 * seconds / patients) for name, seconds in best.items()]
 
 
 def print_phases() -> None:
     rows = phases()
-    print(f"\nfast engine, one block of {BLOCK_PATHS:,} demo paths: time per patient by step")
+    print("\nfast engine, 2,048 demo paths: time per patient by step")
     print(f"{'step':28s} {'ns/patient':>11s}")
     for name, nanoseconds in rows:
         print(f"{name:28s} {nanoseconds:11.1f}")
     total = sum(value for _, value in rows)
     print(f"{'all':28s} {total:11.1f}   ({1e9 / total:,.0f} patients/s on one core)")
+
+
+def overloaded_end_to_end() -> None:
+    """The overloaded 300-bed ward (150 admissions a day, mean stay 1.8 days), 10,000 paths,
+    13 weeks, in a fresh process with two jobs: seconds and peak memory."""
+    command = [sys.executable, __file__, "--overloaded"]
+    root = os.path.dirname(os.path.dirname(os.path.abspath(__file__)))
+    path = os.pathsep.join(filter(None, [root, os.environ.get("PYTHONPATH")]))
+    output = subprocess.run(command, check=True, capture_output=True, text=True,
+                            env={**os.environ, "PYTHONPATH": path}).stdout.split()  # fmt: skip
+    seconds, gigabytes = float(output[0]), float(output[1])
+    print(f"\noverloaded 300-bed ward (150/day, mean stay 1.8 d), 10,000 paths x {DAYS} days, "
+          f"jobs=2, fresh process: {seconds:.1f} s, peak memory {gigabytes:.2f} GB")  # fmt: skip
+
+
+def _overloaded_child() -> None:
+    import resource
+
+    clock = time.perf_counter()
+    arrivals, model = synthetic_inputs(300, 10_000, rate=150.0, mean=1.8)
+    result = simulate(arrivals, model, SEED, RunOptions(engine="fast", jobs=2))
+    weekly_paths(result, model.start)
+    summarise_daily(result)
+    summarise_shifts(result)
+    seconds = time.perf_counter() - clock
+    children = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+    peak = max(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, children) / 1024**2
+    print(seconds, peak)
 
 
 def print_table(title, rows):
@@ -270,10 +295,10 @@ def print_table(title, rows):
 
 
 def main():
-    ward, inputs, _, rate = _demo_ward()
-    stays, inpatients = inputs.stays.describe(), inputs.inpatients_elapsed.size
-    print(f"demo ward: {ward.beds} beds, {rate:.1f} admissions/day (Poisson), recorded stays "
-          f"({stays}), {inpatients} current inpatients")  # fmt: skip
+    model, rate = _demo_ward()
+    stays, inpatients = model.stays.describe(), model.inpatients_elapsed.size
+    print(f"demo ward: {model.settings.beds} beds, {rate:.1f} admissions/day (Poisson), recorded "
+          f"stays ({stays}), {inpatients} patients on the ward at the start")  # fmt: skip
     print_table(f"demo ward, {DAYS} days, 1,000 paths", ward_case(*demo_inputs(1000), 1000))
     print_table(f"demo ward, {DAYS} days, 10,000 paths (fast only)",
                 ward_case(*demo_inputs(10_000), 0))  # fmt: skip
@@ -283,6 +308,7 @@ def main():
         print_table(f"{title}, {DAYS} days", ward_case(*synthetic_inputs(beds, paths), simpy_paths))
     print_first_runs(10_000)
     print_phases()
+    overloaded_end_to_end()
     print(f"\npeak memory, fast engine, 10,000 paths x 182 days: {peak_memory(10_000, 182):.2f} GB")
 
 
@@ -290,5 +316,7 @@ if __name__ == "__main__":
     keep_freed_memory()  # as the command line does
     if sys.argv[1:2] == ["--first-call"]:
         first_call(int(sys.argv[2]), int(sys.argv[3]))
+    elif sys.argv[1:2] == ["--overloaded"]:
+        _overloaded_child()
     else:
         main()

@@ -8,6 +8,7 @@ Paths are resolved relative to the file that names them.
 
 from __future__ import annotations
 
+import math
 import tomllib
 from dataclasses import dataclass, field
 from datetime import date
@@ -209,8 +210,15 @@ def _forecast(document: dict[str, Any], where: str) -> ForecastSettings:
 
 def _stay(document: dict[str, Any], where: str) -> StaySettings:
     values = _table(document, "stay")
-    if values["sd"] is not None and values["mean"] is None:
+    model, mean, sd = values["model"], values["mean"], values["sd"]
+    if sd is not None and mean is None:
         raise PlannerError(f"{where}: stay.sd: given without stay.mean")
+    if model == "exponential" and sd is not None and not math.isclose(sd, mean, rel_tol=1e-9):
+        raise PlannerError(
+            f"{where}: stay.sd: an exponential stay has sd equal to its mean; omit sd"
+        )
+    if mean is not None and sd is None and model != "exponential":
+        raise PlannerError(f"{where}: stay.sd: required with stay.mean for model {model!r}")
     return StaySettings(
         values["model"],
         values["mean"],

@@ -2,8 +2,9 @@
 
 :data:`TOP` and :data:`TABLES` are the single source of truth:
 :func:`planner.schema_checks.validate` checks a parsed TOML document against them,
-:func:`choices` gives the allowed values of a key to the code that acts on them, and
-:func:`document` renders them as the key reference in docs/scenario.md.
+:func:`choices` gives the allowed values of a key to the code that acts on them,
+:func:`default` gives the settings dataclasses their defaults, and :func:`document` renders
+them as the key reference in docs/scenario.md.
 """
 
 from __future__ import annotations
@@ -358,6 +359,13 @@ _KEYS = {key.name: key for key in TOP} | {
 def choices(name: str) -> tuple[str, ...]:
     """Allowed values of the key ``name`` ("engine" in [simulation] is "simulation.engine")."""
     return _KEYS[name].choices
+
+
+def default(name: str) -> Any:
+    """Default of the key ``name`` (as in :func:`choices`), for the settings dataclasses, so that
+    a default is written once, here. A list default is given as a tuple."""
+    value = _KEYS[name].default
+    return tuple(value) if isinstance(value, list) else value
 
 
 def document() -> str:

@@ -5,6 +5,7 @@ reported with its key path."""
 from __future__ import annotations
 
 import difflib
+import math
 import re
 from datetime import date, datetime
 from typing import Any
@@ -61,6 +62,8 @@ def _kind_error(key: Key, value: Any) -> str | None:
 
 def _check_key(key: Key, value: Any, where: str) -> None:
     problem = _kind_error(key, value)
+    if problem is None and key.kind == "float" and not math.isfinite(value):
+        problem = f"must be a finite number, got {value!r}"
     if problem is None and key.choices and value not in key.choices:
         problem = f"must be one of {', '.join(key.choices)}, got {value!r}"
     if problem is None and key.minimum is not None and value < key.minimum:

@@ -24,7 +24,9 @@ def test_check_missing_file_is_one_line_exit_2(tmp_path):
 
 def test_check_bad_history_file(tmp_path):
     (tmp_path / "ward.csv").write_text("date,admissions\n2026-01-01,3\n2026-01-01,2\n")
-    (tmp_path / "plan.toml").write_text('[history]\nadmissions = "ward.csv"\n[stay]\nmean = 4.0\n')
+    (tmp_path / "plan.toml").write_text(
+        '[history]\nadmissions = "ward.csv"\n[stay]\nmean = 4.0\nsd = 3.0\n'
+    )
     result = CliRunner().invoke(cli, ["check", str(tmp_path / "plan.toml")])
     assert result.exit_code == 2
     assert "ward.csv: line 3: date 2026-01-01 appears twice" in result.output

@@ -78,5 +78,3 @@ def test_demand_growth_and_surges_multiply():
     )
     # 1.1 on every day; x1.5 on 2-3 Jan; x2 more on 3 Jan.
     np.testing.assert_allclose(demand_multipliers(dates, demand), [1.1, 1.65, 3.3, 1.1, 1.1])
-    with pytest.raises(PlannerError, match="growth"):
-        demand_multipliers(dates, DemandAdjustment(growth=-1.5))

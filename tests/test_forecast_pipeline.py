@@ -145,17 +145,3 @@ def test_run_backtest_public_entry(history):
         "coverage_95",
         "interval_score_80",
     } <= set(backtest.table.columns)
-
-
-@pytest.mark.parametrize(
-    ("options", "key"),
-    [
-        ({"strategy": "best"}, "strategy"),
-        ({"criterion": "hqic"}, "criterion"),
-        ({"residuals": "oos"}, "residuals"),
-        ({"max_lag": 0}, "max_lag"),
-    ],
-)
-def test_bad_settings_name_the_key(history, options, key):
-    with pytest.raises(PlannerError, match=key):
-        forecast_admissions(history, ForecastSettings(**options), 7, 10, np.random.default_rng(0))

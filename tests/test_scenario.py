@@ -3,15 +3,18 @@
 from __future__ import annotations
 
 import shutil
+from dataclasses import replace
 from datetime import date
 from pathlib import Path
 
 import pytest
 
 from planner.errors import PlannerError
+from planner.forecast.settings import ForecastSettings
 from planner.records.files import HistoryFormat
 from planner.scenario import demo_scenario_path, load_scenario
 from planner.schema import TABLES, TOP, document
+from planner.simulate.settings import StaffingSettings, StaySettings, WardSettings
 
 DEMO = Path(__file__).resolve().parents[1] / "scenarios"
 
@@ -43,6 +46,23 @@ def test_defaults(tmp_path):
     assert plan.ward.policy == "wait" and plan.ward.staffing.minimum_nurses == 2
     assert plan.name == "plan"
     assert (plan.forecast.backtest_paths, plan.forecast.refit_series) == (200, 50)
+
+
+def test_settings_defaults_are_the_scenario_defaults(tmp_path):
+    plan = load_scenario(scenario(tmp_path, ""))
+    assert plan.forecast == ForecastSettings()
+    assert plan.ward == WardSettings()
+    assert replace(plan.stay, mean=None, sd=None) == StaySettings()
+
+
+def test_default_rota_is_the_one_the_key_table_describes():
+    text = next(table.doc for table in TABLES if table.name == "staffing.shift")
+    for shift in StaffingSettings().shifts:
+        assert len(set(shift.roster)) == 1
+        assert (
+            f"{shift.name} {shift.start_hour:02.0f}:00-{shift.end_hour:02.0f}:00 at "
+            f"{shift.patients_per_nurse:g} patients per nurse, {shift.roster[0]} rostered"
+        ) in text
 
 
 def test_backtest_paths_and_refit_series_are_read(tmp_path):
@@ -117,7 +137,45 @@ def test_extends_cycle_is_refused(tmp_path):
             "staffing.override[1].shift: no shift named 'late'",
         ),
         ("[forecast]\nstrategy = 'best'\n", "forecast.strategy: must be one of recursive"),
+        ("[forecast]\ncriterion = 'hqic'\n", "forecast.criterion: must be one of aic, bic"),
+        ("[forecast]\nresiduals = 'oos'\n", "forecast.residuals: must be one of in_sample"),
+        ("[forecast]\nmax_lag = 0\n", "forecast.max_lag: must be >= 1, got 0"),
+        ("[forecast]\norder = 0\n", "forecast.order: must be >= 1, got 0"),
+        ("[forecast]\nrefit_series = 0\n", "forecast.refit_series: must be >= 1, got 0"),
+        ("[forecast]\nfourier_pairs = 0\n", "forecast.fourier_pairs: must be >= 1, got 0"),
+        ("[forecast]\nannual = 'yes'\n", 'forecast.annual: must be true, false or "auto"'),
+        ("[demand]\ngrowth = -1.0\n", "demand.growth: must be > -1, got -1.0"),
+        (
+            "[[demand.surge]]\nstart = 2026-01-01\nend = 2026-01-02\nfactor = 0\n",
+            "demand.surge[1].factor: must be > 0, got 0",
+        ),
         ("[stay]\nmean = 5.0\nscale = -1\n", "stay.scale: must be > 0"),
+        ("[stay]\nmodel = 'normal'\nmean = 5.0\nsd = 4.0\n", "stay.model: must be one of"),
+        ("[stay]\nmean = -2.0\nsd = 1.0\n", "stay.mean: must be > 0, got -2.0"),
+        ("[stay]\nsd = 1.0\n", "stay.sd: given without stay.mean"),
+        ("[stay]\nmodel = 'gamma'\nmean = 2.0\n", "stay.sd: required with stay.mean for model"),
+        (
+            "[stay]\nmodel = 'exponential'\nmean = 2.0\nsd = 1.0\n",
+            "stay.sd: an exponential stay has sd equal to its mean",
+        ),
+        ("[stay]\nmean = nan\nsd = 1.0\n", "stay.mean: must be a finite number, got nan"),
+        (
+            "[stay]\nmean = 5.0\nsd = 4.0\nchange_days = -inf\n",
+            "stay.change_days: must be a finite number, got -inf",
+        ),
+        ("[staffing]\nminimum_nurses = 0\n", "staffing.minimum_nurses: must be >= 1, got 0"),
+        (
+            "[[staffing.override]]\nstart = 2026-01-01\nend = 2026-01-02\nshift = 'day'\n"
+            "nurses = -1\n",
+            "staffing.override[1].nurses: must be >= 0, got -1",
+        ),
+        (
+            "[[staffing.shift]]\nname = 'day'\nstart = '07:00'\nend = '19:00'\n"
+            "patients_per_nurse = 4\nroster = [1,1,1,1,1,1,1]\n"
+            "[[staffing.shift]]\nname = 'day'\nstart = '19:00'\nend = '07:00'\n"
+            "patients_per_nurse = 7\nroster = [1,1,1,1,1,1,1]\n",
+            "staffing.shift: shift names must differ ('day' is used more than once)",
+        ),
         ("horizon_weeks = \n", "not valid TOML"),
     ],
 )
@@ -174,7 +232,8 @@ def test_history_format_keys_are_read(tmp_path):
     path = tmp_path / "plan.toml"
     path.write_text(
         '[history]\nadmissions = "ward.csv"\ndate_format = "%d.%m.%Y"\n'
-        'timestamp_format = "%d/%m/%Y %H:%M"\nfill_missing_days = true\n[stay]\nmean = 4.0\n'
+        'timestamp_format = "%d/%m/%Y %H:%M"\nfill_missing_days = true\n'
+        "[stay]\nmean = 4.0\nsd = 3.0\n"
     )
     form = load_scenario(path).history_format
     assert (form.date_format, form.timestamp_format, form.fill_missing_days) == (
@@ -196,7 +255,7 @@ def test_history_format_keys_are_read(tmp_path):
 )
 def test_bad_history_format_keys(tmp_path, line, message):
     path = tmp_path / "plan.toml"
-    path.write_text(f'[history]\nadmissions = "ward.csv"\n{line}\n[stay]\nmean = 4.0\n')
+    path.write_text(f'[history]\nadmissions = "ward.csv"\n{line}\n[stay]\nmean = 4.0\nsd = 3.0\n')
     with pytest.raises(PlannerError, match=message):
         load_scenario(path)
 

@@ -84,18 +84,19 @@ def test_gap_between_shifts_is_named():
         validate_staffing(staffing)
 
 
+# Each value's own limits (ratios, rosters, nurses) and the shift an override names are
+# checked when the scenario is read: tests/test_scenario.py.
 @pytest.mark.parametrize(
-    "staffing",
+    ("shifts", "message"),
     [
-        StaffingSettings(shifts=(Shift("day", 7, 19, 0, WEEK), Shift("night", 19, 7, 7, WEEK))),
-        StaffingSettings(shifts=(Shift("day", 7, 19, 4, (5, 5)), Shift("night", 19, 7, 7, WEEK))),
-        StaffingSettings(shifts=(Shift("day", 7, 19, 4, WEEK), Shift("day", 19, 7, 7, WEEK))),
-        StaffingSettings(minimum_nurses=-1),
-        StaffingSettings(
-            overrides=(RosterOverride(date(2024, 1, 1), date(2024, 1, 2), "late", 4),)
+        (
+            (Shift("day", 7, 19, 4, WEEK), Shift("day", 19, 7, 7, WEEK)),
+            "staffing.shift: shift names must differ ('day' is used more than once)",
         ),
+        ((), "staffing.shift: at least one shift is needed"),
     ],
 )
-def test_bad_staffing_values_raise(staffing):
-    with pytest.raises(PlannerError, match="staffing"):
-        validate_staffing(staffing)
+def test_shifts_across_the_day_are_checked(shifts, message):
+    with pytest.raises(PlannerError) as error:
+        validate_staffing(StaffingSettings(shifts=shifts))
+    assert str(error.value) == message

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from datetime import date
 
+import numpy as np
+
 from planner.simulate.settings import BedChange, WardSettings
 
 
@@ -15,3 +17,19 @@ def drawn_ward(beds: int, changes: list[tuple[int, int, int]], policy: str) -> W
         for first, length, change in changes
     )
     return WardSettings(beds=beds + 4 * len(changes), bed_changes=bed_changes, policy=policy)
+
+
+class FixedStay:
+    """Every stay lasts exactly ``days``; the remaining stay is ``days`` - elapsed (at least
+    a minute): worked examples with known event times."""
+
+    inverse_transform = True
+
+    def __init__(self, days: float):
+        self.mean = days
+
+    def from_uniforms(self, u):
+        return np.full(np.shape(u), self.mean)
+
+    def remaining_from_uniforms(self, u, elapsed):
+        return np.maximum(self.mean - np.asarray(elapsed, dtype=float), 1.0 / (24 * 60))

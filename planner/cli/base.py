@@ -126,8 +126,12 @@ def worker_count(jobs: int | None) -> int:
 def run_options(paths, seed, engine, jobs, scheduler, label: str = "simulating"):
     """The run options of a command: its --paths, --seed, --engine, --jobs and --scheduler,
     with a progress bar when stderr is a terminal."""
+    from planner.simulate.engines import engine_problem
     from planner.simulate.model import RunOptions
 
+    problem = engine_problem(engine or "auto")
+    if problem is not None:
+        click.echo(problem, err=True)
     return RunOptions(paths, seed, engine, worker_count(jobs), scheduler, progress_bar(label))
 
 

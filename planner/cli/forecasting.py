@@ -77,4 +77,8 @@ def backtest(scenario: Path | None, out, overwrite, paths, seed) -> None:
         table["horizon_week"] = table["horizon_week"].map(lambda w: "all" if w == 0 else w)
         write_csv(table, folder / "backtest.csv")
     click.echo(table.to_string(index=False, float_format=lambda v: f"{v:.3f}"))
+    if result.from_cache:
+        from planner.report.html import CACHED_BACKTEST
+
+        click.echo(CACHED_BACKTEST)
     click.echo(f"wrote {target}/backtest.csv")

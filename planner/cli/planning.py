@@ -53,7 +53,7 @@ def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, s
 def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, scheduler) -> None:
     """Forecast, simulate and report: weekly.csv, charts, report.html, run.json."""
     from planner.outputs import DEFAULT_ROOT, atomic_folder
-    from planner.report.html import CAUTION
+    from planner.report.html import CACHED_BACKTEST, CAUTION
     from planner.report.run_report import headline, terminal_table, write_run_files
     from planner.runs.hindcast import latest_hindcast
 
@@ -64,6 +64,9 @@ def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, schedu
         hindcast = latest_hindcast([DEFAULT_ROOT, target.parent], plan)
         write_run_files(result, folder, hindcast)
     click.echo(f"{plan.name}: {result.paths} paths from {result.history.start.date()}")
+    backtest = result.forecast.summary.backtest
+    if backtest is not None and backtest.from_cache:
+        click.echo(CACHED_BACKTEST)
     click.echo(terminal_table(result.summary.weekly))
     click.echo(headline(result))
     click.echo(CAUTION)

@@ -28,6 +28,8 @@ origins.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 import pandas as pd
 
@@ -70,6 +72,34 @@ def origin_positions(n: int, settings, horizon: int) -> np.ndarray:
     return usable
 
 
+@dataclass(frozen=True)
+class BacktestInputs:
+    """The data a backtest reads: ``values`` (admissions per day on ``dates``), the
+    deterministic columns ``names`` and their values over the history and the ``horizon``
+    days after it (``deterministic``, one row per day, ``len(dates) + horizon`` rows)."""
+
+    values: np.ndarray
+    dates: pd.DatetimeIndex
+    names: tuple[str, ...]
+    deterministic: np.ndarray
+    horizon: int
+
+    @classmethod
+    def build(cls, values, dates, terms, horizon: int, columns=None) -> BacktestInputs:
+        """From deterministic ``terms`` (only ``columns`` of them if given, e.g. without a
+        holiday column that is empty in sample)."""
+        values = np.asarray(values, dtype=float)
+        extended = pd.date_range(dates[0], periods=values.shape[0] + horizon, freq="D")
+        names = tuple(terms.names) if columns is None else tuple(columns)
+        deterministic = terms.in_sample(extended)[list(names)].to_numpy()
+        return cls(values, pd.DatetimeIndex(dates), names, deterministic, horizon)
+
+
+def backtest_path_count(n_paths: int, settings) -> int:
+    """Paths per origin and strategy: the smaller of the run's and ``backtest_paths``."""
+    return max(1, min(n_paths, settings.backtest_paths))
+
+
 def backtest_arrays(
     values: np.ndarray,
     dates: pd.DatetimeIndex,
@@ -82,18 +112,26 @@ def backtest_arrays(
 ) -> BacktestResult:
     """Backtest on ``values`` (admissions per day on ``dates``) with deterministic ``terms``
     (only ``columns`` of them if given, e.g. without a holiday column that is empty in sample)."""
+    inputs = BacktestInputs.build(values, dates, terms, horizon, columns)
+    return backtest_inputs(inputs, settings, n_paths, rng)
+
+
+def backtest_inputs(
+    inputs: BacktestInputs, settings, n_paths: int, rng: np.random.Generator
+) -> BacktestResult:
+    """The backtest of :func:`backtest_arrays` on inputs already built."""
+    values, dates, names, horizon = inputs.values, inputs.dates, inputs.names, inputs.horizon
+    deterministic_all = inputs.deterministic
     n = values.shape[0]
-    extended = pd.date_range(dates[0], periods=n + horizon, freq="D")
-    names = tuple(terms.names) if columns is None else tuple(columns)
-    deterministic_all = terms.in_sample(extended)[list(names)].to_numpy()
     positions = origin_positions(n, settings, horizon)
-    n_paths = max(1, min(n_paths, settings.backtest_paths))
+    n_paths = backtest_path_count(n_paths, settings)
     scored = {strategy: [] for strategy in STRATEGIES}
     one_step_errors: list[np.ndarray] = []
     direct_errors: list[np.ndarray] = []
     for origin, origin_rng in zip(positions, rng.spawn(len(positions)), strict=True):
         training, observed = values[:origin], values[origin : origin + horizon]
         scale = metrics.mase_scale(training)
+        one_step = None
         for strategy, strategy_rng in zip(STRATEGIES, origin_rng.spawn(3), strict=True):
             path_rng, rounding_rng = strategy_rng.spawn(2)
             series = SeriesDesign(
@@ -102,7 +140,9 @@ def backtest_arrays(
                 deterministic_all[origin : origin + horizon],
                 names,
             )
-            result = model_paths(strategy, series, settings, n_paths, path_rng)
+            result = model_paths(strategy, series, settings, n_paths, path_rng, one_step=one_step)
+            if result.one_step is not None:  # the direct strategy reuses the recursive's fit
+                one_step = result.one_step
             counts = to_counts(result.paths[:, : observed.shape[0]], rounding_rng)
             quantiles = np.quantile(counts, SCORED_LEVELS, axis=0).T
             inside = (counts >= quantiles[:, 2]) & (counts <= quantiles[:, 6])

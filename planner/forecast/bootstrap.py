@@ -86,8 +86,6 @@ def refit_recursive_paths(
     residual_pool=None,
 ) -> np.ndarray:
     """Recursive paths with parameter uncertainty (see the module docstring)."""
-    if n_series < 1:
-        raise PlannerError(f"refit_series must be >= 1, got {n_series}")
     series_rng, shock_rng = rng.spawn(2)
     histories = bootstrap_histories(fit, values, deterministic, n_series, series_rng)
     coefficients = np.empty((n_series, fit.coefficients.shape[0]))

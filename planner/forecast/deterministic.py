@@ -110,10 +110,6 @@ def terms_for_history(settings, dates: pd.DatetimeIndex) -> DeterministicTerms:
     annual = settings.annual
     if annual == "auto":
         annual = len(dates) >= 730
-    if not isinstance(annual, bool):
-        raise PlannerError(f'annual must be true, false or "auto", got {annual!r}')
-    if annual and settings.fourier_pairs < 1:
-        raise PlannerError(f"fourier_pairs must be >= 1, got {settings.fourier_pairs}")
     return DeterministicTerms(
         origin=pd.Timestamp(dates[0]),
         constant=True,

@@ -57,15 +57,17 @@ def model_paths(
     n_paths: int,
     rng: np.random.Generator,
     *,
-    engine: str = "numpy",
+    one_step: ArFit | None = None,
     residual_pool: np.ndarray | None = None,
     error_paths: np.ndarray | None = None,
 ) -> StrategyPaths:
     """Fit ``strategy`` on the design's values and simulate ``n_paths`` paths over the
     ``H = len(design.future)`` following days.
 
-    ``residual_pool`` replaces the recursive model's in-sample residuals and ``error_paths``
-    the direct model's aligned residual paths (used for ``residuals="backtest"``).
+    ``one_step``: the one-step model already fitted on these values with these settings (the
+    backtest fits it once per origin for both strategies). ``residual_pool`` replaces the
+    recursive model's in-sample residuals and ``error_paths`` the direct model's aligned
+    residual paths (used for ``residuals="backtest"``).
     """
     values, deterministic, names = design.values, design.deterministic, design.names
     future_deterministic = design.future
@@ -74,9 +76,16 @@ def model_paths(
         point = seasonal_naive_point(values, horizon)
         paths = direct_paths(point, seasonal_naive_errors(values, horizon), n_paths, rng)
         return StrategyPaths(strategy, paths, point, None)
-    one_step = fit_selected(
-        values, settings.max_lag, deterministic, names, settings.criterion, settings.order, engine
-    )
+    if one_step is None:
+        one_step = fit_selected(
+            values,
+            settings.max_lag,
+            deterministic,
+            names,
+            settings.criterion,
+            settings.order,
+            "numpy",
+        )
     if strategy == "recursive":
         point = recursive_point(one_step, values, future_deterministic)
         if settings.refit:

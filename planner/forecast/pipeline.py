@@ -6,57 +6,51 @@ adjustments -> clip and stochastic rounding -> :class:`ForecastResult`.
 
 Randomness: ``rng`` is split with ``Generator.spawn`` into independent streams for the backtest,
 the paths and the rounding, so the same seed gives the same result.
+
+``cache``: a folder of the backtest cache (:mod:`planner.forecast.backtest_cache`), or None to
+compute the backtest every time; the result is the same either way.
+
+``settings`` are taken as valid: their allowed values and limits are the scenario's keys
+(:mod:`planner.schema`), checked once, when the scenario is read; ``horizon`` and ``n_paths``
+come from the scenario and the command line, which both refuse values below 1.
 """
 
 from __future__ import annotations
+
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
 from planner.errors import PlannerError
 from planner.forecast.adjust import adjust_paths
-from planner.forecast.backtest import backtest_arrays
+from planner.forecast.backtest import BacktestInputs
+from planner.forecast.backtest_cache import cached_backtest
 from planner.forecast.bootstrap import to_counts
 from planner.forecast.deterministic import terms_for_history
 from planner.forecast.paths import SeriesDesign, model_paths
 from planner.forecast.result import BacktestResult, ForecastResult, ForecastSummary
-from planner.schema import choices
 
 HISTORY_TAIL_DAYS = 182
 
 
-def check_settings(settings, horizon: int, n_paths: int) -> None:
-    """Raise PlannerError naming the first bad value."""
-    for name in ("strategy", "criterion", "residuals"):
-        allowed, value = choices(f"forecast.{name}"), getattr(settings, name)
-        if value not in allowed:
-            raise PlannerError(f"{name} must be one of {', '.join(allowed)}, got {value!r}")
-    if settings.max_lag < 1:
-        raise PlannerError(f"max_lag must be >= 1, got {settings.max_lag}")
-    if settings.order is not None and settings.order < 0:
-        raise PlannerError(f"order must be >= 0, got {settings.order}")
-    if settings.backtest_paths < 1 or settings.refit_series < 1:
-        raise PlannerError("backtest_paths and refit_series must be >= 1")
-    if horizon < 1:
-        raise PlannerError(f"horizon must be >= 1 day, got {horizon}")
-    if n_paths < 1:
-        raise PlannerError(f"n_paths must be >= 1, got {n_paths}")
-
-
 def run_backtest(
-    history: pd.Series, settings, horizon: int, n_paths: int, rng: np.random.Generator
+    history: pd.Series,
+    settings,
+    horizon: int,
+    n_paths: int,
+    rng: np.random.Generator,
+    cache: Path | None = None,
 ) -> BacktestResult:
     """Rolling-origin backtest of recursive, direct and seasonal naive forecasts of ``horizon``
     days (see :mod:`planner.forecast.backtest`). Given a generator made from the same seed, it
     is the very backtest :func:`forecast_admissions` runs to choose the "auto" strategy."""
-    check_settings(settings, horizon, n_paths)
     dates = pd.DatetimeIndex(history.index)
     terms = terms_for_history(settings, dates)
     keep = tuple(observed_columns(terms, dates))
     backtest_rng = rng.spawn(3)[0]
-    return backtest_arrays(
-        history.to_numpy(dtype=float), dates, terms, settings, horizon, n_paths, backtest_rng, keep
-    )
+    inputs = BacktestInputs.build(history.to_numpy(dtype=float), dates, terms, horizon, keep)
+    return cached_backtest(inputs, settings, n_paths, backtest_rng, cache)
 
 
 def observed_columns(terms, dates: pd.DatetimeIndex) -> tuple[str, ...]:
@@ -73,10 +67,11 @@ def forecast_admissions(
     n_paths: int,
     rng: np.random.Generator,
     start: pd.Timestamp | None = None,
+    cache: Path | None = None,
 ) -> ForecastResult:
     """Sample paths of daily emergency admissions for ``horizon`` days from ``start`` (default:
-    the day after the history ends; a later start forecasts through the gap and drops it)."""
-    check_settings(settings, horizon, n_paths)
+    the day after the history ends; a later start forecasts through the gap and drops it);
+    ``cache`` as in the module docstring."""
     values = history.to_numpy(dtype=float)
     dates = pd.DatetimeIndex(history.index)
     first_day = dates[-1] + pd.Timedelta(days=1)
@@ -95,9 +90,8 @@ def forecast_admissions(
     backtest = None
     strategy = settings.strategy
     if strategy == "auto" or settings.residuals == "backtest":
-        backtest = backtest_arrays(
-            values, dates, terms, settings, total, n_paths, backtest_rng, tuple(keep)
-        )
+        inputs = BacktestInputs.build(values, dates, terms, total, tuple(keep))
+        backtest = cached_backtest(inputs, settings, n_paths, backtest_rng, cache)
     pinball = {}
     if backtest is not None:
         pinball = backtest.overall()["pinball"].to_dict()
@@ -114,7 +108,6 @@ def forecast_admissions(
         settings,
         n_paths,
         path_rng,
-        engine="statsmodels",
         residual_pool=residual_pool,
         error_paths=error_paths,
     )

@@ -27,12 +27,15 @@ class BacktestResult:
     """Rolling-origin evaluation. ``origins``: first forecast day of each origin.
     ``residuals``: out-of-sample errors (admissions) per strategy, ``"recursive"``: 1-D one-step
     errors on every day of the backtest window; ``"direct"``: ``(origins, H)`` error paths of the
-    origins whose whole horizon lies inside the history."""
+    origins whose whole horizon lies inside the history. ``from_cache``: True when this result
+    was read from the backtest cache (:mod:`planner.forecast.backtest_cache`) rather than
+    computed in this process; the numbers are the same either way."""
 
     table: pd.DataFrame
     origins: pd.DatetimeIndex
     residuals: dict[str, np.ndarray]
     n_paths: int
+    from_cache: bool = False
 
     def overall(self) -> pd.DataFrame:
         """The ``horizon_week == 0`` rows, indexed by strategy."""

@@ -5,6 +5,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from datetime import date
 
+from planner.schema import default
+
 
 @dataclass(frozen=True)
 class Surge:
@@ -21,7 +23,7 @@ class DemandAdjustment:
     """Changes applied to forecast admissions after the model: ``growth`` is a relative change
     (0.05 = +5% on every day), surges multiply dated ranges on top of it."""
 
-    growth: float = 0.0
+    growth: float = default("demand.growth")
     surges: tuple[Surge, ...] = ()
 
 
@@ -42,22 +44,25 @@ class ForecastSettings:
     backtest_origins / backtest_every: rolling-origin backtest, number of origins and days
         between them (default: weekly origins over the last 26 weeks); backtest_paths: sample
         paths per origin and strategy (the smaller of this and the run's paths is used).
+
+    Defaults and allowed values are those of the scenario's keys (:mod:`planner.schema`); the
+    scenario reader checks them, so the forecast code takes these settings as valid.
     """
 
-    strategy: str = "auto"
-    max_lag: int = 28
-    criterion: str = "aic"
-    order: int | None = None
-    weekday: bool = True
-    annual: bool | str = "auto"
-    fourier_pairs: int = 3
-    trend: bool = False
-    holiday_dates: tuple[date, ...] = ()
-    holiday_country: str | None = None
-    residuals: str = "in_sample"
-    refit: bool = False
-    refit_series: int = 50
-    backtest_origins: int = 26
-    backtest_every: int = 7
-    backtest_paths: int = 200
+    strategy: str = default("forecast.strategy")
+    max_lag: int = default("forecast.max_lag")
+    criterion: str = default("forecast.criterion")
+    order: int | None = default("forecast.order")
+    weekday: bool = default("forecast.weekday")
+    annual: bool | str = default("forecast.annual")
+    fourier_pairs: int = default("forecast.fourier_pairs")
+    trend: bool = default("forecast.trend")
+    holiday_dates: tuple[date, ...] = default("forecast.holidays")
+    holiday_country: str | None = default("forecast.holiday_country")
+    residuals: str = default("forecast.residuals")
+    refit: bool = default("forecast.refit")
+    refit_series: int = default("forecast.refit_series")
+    backtest_origins: int = default("forecast.backtest_origins")
+    backtest_every: int = default("forecast.backtest_every_days")
+    backtest_paths: int = default("forecast.backtest_paths")
     demand: DemandAdjustment = field(default_factory=DemandAdjustment)

@@ -6,7 +6,8 @@
 - Direct: one regression per horizon ``h = 1 .. H`` of ``y[t+h-1]`` on ``y[t-1..t-p]`` and the
   deterministic terms of the target day, each fitted on all rows where ``y[t+h-1]`` is known.
   All horizons use the order ``p`` chosen for the one-step model (one order choice, not H), so
-  the two strategies differ only in how the horizon is reached.
+  the two strategies differ only in how the horizon is reached. The H regressions are solved
+  together (:mod:`planner.forecast.direct_fit`).
 """
 
 from __future__ import annotations
@@ -17,28 +18,31 @@ import numpy as np
 
 from planner.errors import PlannerError
 from planner.forecast.ar import ArFit, fit_ar
+from planner.forecast.direct_fit import direct_regressions
 
 
 @dataclass(frozen=True)
 class DirectFit:
-    """The H direct regressions; ``fits[h - 1]`` forecasts ``h`` days ahead."""
+    """The H direct regressions: row ``h - 1`` of ``coefficients`` (deterministic terms, then
+    ``lag_1 .. lag_order``) forecasts ``h`` days ahead, and row ``h - 1`` of ``residuals`` holds
+    that regression's residuals (admissions) from the origin ``t = order`` on, zeros past its
+    last row."""
 
-    fits: tuple[ArFit, ...]
+    order: int
+    coefficients: np.ndarray
+    residuals: np.ndarray
 
     @property
     def horizon(self) -> int:
-        return len(self.fits)
-
-    @property
-    def order(self) -> int:
-        return self.fits[0].order
+        return self.coefficients.shape[0]
 
     def aligned_residuals(self) -> np.ndarray:
         """Residuals of all H regressions on their common origins: row ``i`` is the origin
         ``t = order + i`` and column ``h - 1`` its ``h``-day-ahead residual (admissions), so a
         row is one realised error path ``h = 1 .. H``. Shape ``(n - H - order + 1, H)``."""
-        common = self.fits[-1].nobs
-        return np.column_stack([fit.residuals[:common] for fit in self.fits])
+        return np.ascontiguousarray(
+            self.residuals[:, : self.residuals.shape[1] - self.horizon + 1].T
+        )
 
 
 def simulate_recursive(
@@ -102,11 +106,16 @@ def fit_direct(
         raise PlannerError(
             f"history: {len(values)} days are too few for order {order} and horizon {horizon}"
         )
-    fits = tuple(
+    if engine == "numpy":
+        return DirectFit(order, *direct_regressions(values, order, horizon, deterministic))
+    fits = [
         fit_ar(values, order, deterministic, names, horizon=h, hold_back=order, engine=engine)
         for h in range(1, horizon + 1)
-    )
-    return DirectFit(fits)
+    ]
+    residuals = np.zeros((horizon, len(values) - order))
+    for row, fit in enumerate(fits):
+        residuals[row, : fit.nobs] = fit.residuals
+    return DirectFit(order, np.array([fit.coefficients for fit in fits]), residuals)
 
 
 def direct_point(direct: DirectFit, last_values, future_deterministic) -> np.ndarray:
@@ -118,12 +127,11 @@ def direct_point(direct: DirectFit, last_values, future_deterministic) -> np.nda
             f"{future_deterministic.shape[0]}"
         )
     lags = _last(last_values, direct.order)[::-1]  # y[t-1], ..., y[t-p]
-    return np.array(
-        [
-            future_deterministic[h] @ fit.deterministic_coefficients + lags @ fit.lag_coefficients
-            for h, fit in enumerate(direct.fits)
-        ]
+    k_det = direct.coefficients.shape[1] - direct.order
+    deterministic = np.einsum(
+        "hk,hk->h", future_deterministic, direct.coefficients[:, :k_det], optimize=False
     )
+    return deterministic + direct.coefficients[:, k_det:] @ lags
 
 
 def _last(values, order: int) -> np.ndarray:

@@ -18,7 +18,17 @@ import pandas as pd
 
 from planner.fingerprint import file_sha256, json_ready
 
-PACKAGES = ("planner", "numpy", "pandas", "scipy", "statsmodels", "simpy", "matplotlib", "click")
+PACKAGES = (
+    "planner",
+    "numpy",
+    "pandas",
+    "scipy",
+    "statsmodels",
+    "simpy",
+    "matplotlib",
+    "click",
+    "numba",
+)
 
 
 def write_csv(frame: pd.DataFrame, path: Path, float_format: str = "%.6g") -> None:

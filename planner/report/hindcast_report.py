@@ -43,9 +43,9 @@ def pit_histogram(counts: np.ndarray) -> bytes:
     axes.set_xlim(0, 1)
     axes.set_xlabel("randomised PIT of the recorded census")
     axes.set_ylabel("origin-weeks")
-    axes.set_title("Where the recorded census fell in the forecast")
+    charts.title(axes, "Where the recorded census fell in the forecast")
     axes.legend(fontsize=8)
-    return charts._png(figure)
+    return charts.png(figure, charts.LABEL)
 
 
 def coverage_chart(summary: pd.DataFrame) -> bytes:
@@ -68,10 +68,10 @@ def coverage_chart(summary: pd.DataFrame) -> bytes:
     axes.set_ylim(0, 1.02)
     axes.set_xlabel("horizon week")
     axes.set_ylabel("share of days inside the interval")
-    axes.set_title("Census interval coverage (black: nominal)")
+    charts.title(axes, "Census interval coverage (black: nominal)")
     axes.legend(fontsize=7, ncol=3, loc="lower left")
     axes.grid(alpha=0.3)
-    return charts._png(figure)
+    return charts.png(figure, charts.LABEL)
 
 
 def headline(result: HindcastResult) -> str:

@@ -14,6 +14,9 @@ CAUTION = (
     "guarantees of safe care."
 )
 
+#: Said (terminal and report) when the forecast's backtest was read from the backtest cache.
+CACHED_BACKTEST = "backtest reused from cache (same history and settings)"
+
 STYLE = """
 body { font-family: system-ui, sans-serif; margin: 2em auto; max-width: 70em; color: #222; }
 h1 { font-size: 1.6em; margin-bottom: 0.2em; } h2 { font-size: 1.2em; margin-top: 1.6em; }

@@ -8,6 +8,7 @@ import pandas as pd
 
 from planner.report import charts, html
 from planner.report.files import run_record, write_csv, write_json
+from planner.report.html import CACHED_BACKTEST
 from planner.results import HindcastQuote, RunResult
 
 WEEKLY_NOTE = (
@@ -167,6 +168,7 @@ def assumptions(run: RunResult, hindcast: HindcastQuote | None = None) -> list[t
                     f"{len(summary.backtest.origins)} rolling origins: MASE {row['mase']:.2f} "
                     f"(same weekday last week: {naive['mase']:.2f}), 80% interval held "
                     f"{row['coverage_80']:.0%} of days, 95% interval {row['coverage_95']:.0%}"
+                    + (f"; {CACHED_BACKTEST}" if summary.backtest.from_cache else "")
                 ),
             )
         )

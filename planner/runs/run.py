@@ -104,8 +104,11 @@ class Streams:
 def forecast_step(scenario: Scenario, history: WardHistory, paths: int, seed: int):
     """Sample paths of daily admissions from the day after the history to the end of the
     scenario's horizon (days before a later ``start`` included: the ward is simulated
-    through them)."""
+    through them). The backtest, when the settings ask for one, is read from the backtest
+    cache (:mod:`planner.forecast.backtest_cache`) when the same history and settings were
+    backtested before."""
     from planner.forecast import forecast_admissions
+    from planner.forecast.backtest_cache import cache_folder
 
     rng = np.random.default_rng(Streams.from_seed(seed).forecast)
     return forecast_admissions(
@@ -115,15 +118,24 @@ def forecast_step(scenario: Scenario, history: WardHistory, paths: int, seed: in
         paths,
         rng,
         history.first_day,
+        cache_folder(),
     )
 
 
 def backtest_step(scenario: Scenario, history: WardHistory, paths: int, seed: int):
     """Rolling-origin backtest of the forecast strategies over the scenario's horizon."""
     from planner.forecast import run_backtest
+    from planner.forecast.backtest_cache import cache_folder
 
     rng = np.random.default_rng(Streams.from_seed(seed).forecast)
-    return run_backtest(history.admissions, scenario.forecast, scenario.horizon_days, paths, rng)
+    return run_backtest(
+        history.admissions,
+        scenario.forecast,
+        scenario.horizon_days,
+        paths,
+        rng,
+        cache_folder(),
+    )
 
 
 def ward_model(scenario: Scenario, history: WardHistory) -> WardModel:

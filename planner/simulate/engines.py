@@ -1,9 +1,10 @@
 """Choosing the ward simulation engine and running chunks of paths in parallel.
 
-Engines: "simpy" (:func:`planner.simulate.ward.simulate_ward`, one SimPy run per path),
-"fast" (:func:`planner.simulate.fast.simulate_ward_fast`, numpy across paths) and "auto" (the
-fast engine: it covers every ward the scenario can describe). Both engines give the same result
-for the same seed, so the choice changes the run time, not the numbers.
+Engines: "simpy" (:func:`planner.simulate.ward.simulate_ward`, the SimPy model, one
+environment per path), "fast" (:func:`planner.simulate.fast.simulate_ward_fast`, the same rules
+as a compiled loop) and "auto" (the fast engine, unless numba cannot compile here: then the
+SimPy model, see :func:`engine_problem`). Both engines read the same random inputs
+(:mod:`planner.simulate.sampling`), so the choice changes the run time, not the numbers.
 
 ``jobs`` > 1 splits the paths into consecutive chunks run in ``jobs`` processes (this one and
 ``jobs - 1`` workers, started on first use and kept for the session: see
@@ -35,12 +36,21 @@ ENGINES = choices("simulation.engine")
 CHUNK_PATHS = {"simpy": 100, "fast": 4096}
 
 
+def engine_problem(engine: str) -> str | None:
+    """Why ``engine`` ("auto" or "fast") cannot run the compiled loop here, as one line that
+    says the SimPy model runs instead; None when it can (or for "simpy")."""
+    from planner.simulate.compiled import compiler_problem
+
+    problem = compiler_problem() if engine != "simpy" else None
+    return None if problem is None else f"fast engine unavailable, {problem}: using the SimPy model"
+
+
 def chosen_engine(engine: str) -> str:
-    """The engine that runs: "simpy" or "fast" ("auto" is the fast engine, which covers every
-    ward set-up)."""
+    """The engine that runs: "simpy" or "fast" ("auto" and "fast" are the fast engine, which
+    covers every ward set-up, unless numba cannot compile here)."""
     if engine not in ENGINES:
         raise PlannerError(f"engine must be one of {ENGINES}, got {engine!r}")
-    return "fast" if engine == "auto" else engine
+    return "simpy" if engine == "simpy" or engine_problem(engine) else "fast"
 
 
 def chunk_starts(paths: int, jobs: int) -> list[int]:

@@ -1,16 +1,20 @@
-"""Ward simulation vectorised across paths (numpy only): the SimPy ward model, many paths at once.
+"""The fast ward engine: the SimPy ward model's rules as a compiled loop, one path at a time.
 
 ``simulate_ward_fast`` takes the arguments of :func:`planner.simulate.ward.simulate_ward` and
-returns the same ``WardResult`` (same arrays, dtypes and meaning). The bed rules are those of
-the SimPy model (see :mod:`planner.simulate.fast_beds`); occupancy, queue and staffing records
-follow :mod:`planner.simulate.fast_records`; the random streams, the SimPy model's, are drawn
-as in :mod:`planner.simulate.fast_streams`. With the same seed both engines see the same
-arrivals and stays, so their results agree path by path (exactly equal event times aside,
-which continuous stays make probability 0).
+returns the same ``WardResult``. Both engines read the same random inputs
+(:mod:`planner.simulate.sampling`), so their results agree path by path, up to the order of
+events at exactly equal times (probability 0 with continuous stays; at equal times this loop
+takes discharges before arrivals).
 
-Paths run in blocks of at most ``BLOCK_PATHS``; a block's arrays are (arrival slots x paths),
-paths ordered by decreasing arrivals, so that the step for the k-th arrival of every path reads
-contiguous rows.
+Each path is an event loop over three sorted sources: the patients' arrivals, a heap of
+discharge times of the patients in beds, and the record boundaries (00:00 of every day, when
+bed changes take effect, and the start of every shift). Bed rules as in
+:mod:`planner.simulate.ward`: a new patient gets a bed only while occupied beds < beds open;
+when beds close, nobody is moved; policy "wait" queues a patient first come, first served and
+the stay starts when a bed is taken, policy "divert" places the patient elsewhere.
+
+The loop is compiled by numba (:mod:`planner.simulate.compiled`); its cost per patient does not
+grow with the beds beyond the heap's logarithm.
 """
 
 from __future__ import annotations
@@ -19,112 +23,188 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from planner.simulate.fast_beds import allocate_beds
-from planner.simulate.fast_records import Pieces, daily_records
-from planner.simulate.fast_streams import draw_block
-from planner.simulate.lookup import UnitSearch
-from planner.simulate.result import PATH_DAILY, WardResult, ward_result
-from planner.simulate.settings import WardSettings
+from planner.simulate.compiled import compiled
+from planner.simulate.result import WardResult, ward_result
+from planner.simulate.sampling import DrawnInputs, draw_inputs
 from planner.simulate.ward import beds_open_by_day, check_arrivals
 
 if TYPE_CHECKING:
     from planner.simulate.model import WardModel
 
-#: Most paths simulated together: bounds memory (about 0.2 kB per path and arrival) and keeps
-#: the per-step arrays of bed release times small enough for the processor's cache (2048 ran
-#: 10,000 demo paths about a fifth faster than 4096 in a fresh process, 1024 no faster).
-BLOCK_PATHS = 2048
-#: Paths per band when turning (paths x slots) arrays into (slots x paths) ones.
-_BAND = 256
+#: Rows of the integer daily records, in this order (wait hours are kept apart, as floats).
+COUNTED = ("census", "peak_occupancy", "admissions", "bed_admissions", "discharges",
+           "waited", "diverted", "queue")  # fmt: skip
+_CENSUS, _PEAK, _ADMISSIONS, _BED_ADMISSIONS, _DISCHARGES, _WAITED, _DIVERTED, _QUEUE = range(8)
 
 
-def hours_of_day(uniforms: np.ndarray, profile: np.ndarray) -> np.ndarray:
-    """Hour of the day (0-23) for each uniform in [0, 1): the number of entries of the
-    cumulative ``profile`` at or below it (``searchsorted(cdf, u, "right")``, as
-    ``Generator.choice`` inverts it), read from a table (:class:`UnitSearch`)."""
-    p = profile / profile.sum()
-    cdf = p.cumsum()
-    cdf /= cdf[-1]
-    return UnitSearch(cdf, "right", bits=12)(uniforms)
+@compiled
+def _push(heap, size, value):  # pragma: no cover - compiled
+    """Add ``value`` to the min-heap ``heap[:size]``; returns the new size."""
+    i = size
+    heap[i] = value
+    while i > 0:
+        parent = (i - 1) // 2
+        if heap[parent] <= value:
+            break
+        heap[i] = heap[parent]
+        i = parent
+    heap[i] = value
+    return size + 1
 
 
-def arrival_rows(hour_uniforms, within_uniforms, counts, profile) -> np.ndarray:
-    """Sorted arrival hours (since 00:00 of day 0) of many paths, one row each: row r has
-    ``counts[r].sum()`` arrivals, ``counts[r, d]`` on day d, the t-th of them at d x 24 + the
-    hour picked by ``hour_uniforms[r, t]`` + ``within_uniforms[r, t]``; entries after a
-    row's arrivals are >= the end of the window."""
-    rows, slots = hour_uniforms.shape
-    days = counts.shape[1]
-    ends = np.cumsum(counts, axis=1)  # a day's arrivals end before this slot
-    marks = np.bincount((np.arange(rows)[:, None] * (slots + 1) + ends).ravel(),
-                        minlength=rows * (slots + 1)).reshape(rows, slots + 1)  # fmt: skip
-    day = np.cumsum(marks[:, :slots], axis=1)  # days ended at or before each slot
-    times = day * 24
-    times += hours_of_day(hour_uniforms, profile)
-    times = times + within_uniforms
-    # Never let rounding carry an arrival into the next day: d*24 + 23 + within < d*24 + 24.
-    last_moment = np.nextafter((np.arange(days + 1) + 1) * 24.0, 0)
-    np.minimum(times, last_moment[day], out=times)
-    times.sort(axis=1)
-    return times
+@compiled
+def _pop(heap, size):  # pragma: no cover - compiled
+    """Remove the smallest entry of the min-heap ``heap[:size]``; returns the new size. The
+    hole left at the top moves down to a leaf along the smaller children (a choice made
+    without a branch), then the last entry moves up into place from there: fewer
+    unpredictable branches than the textbook sift-down."""
+    size -= 1
+    if size == 0:
+        return 0
+    last = heap[size]
+    i = 0
+    child = 1
+    while child < size:
+        if child + 1 < size:
+            child += heap[child + 1] < heap[child]
+        heap[i] = heap[child]
+        i = child
+        child = 2 * i + 1
+    while i > 0:
+        parent = (i - 1) // 2
+        if heap[parent] <= last:
+            break
+        heap[i] = heap[parent]
+        i = parent
+    heap[i] = last
+    return size
 
 
-def by_slot(rows: np.ndarray, scale: float | None = None) -> np.ndarray:
-    """(slots x paths) C-ordered copy of (paths x slots) ``rows`` (times ``scale`` if given),
-    copied in bands of ``_BAND`` paths so that both sides of each band stay in cache."""
-    out = np.empty(rows.shape[::-1])
-    for lo in range(0, rows.shape[0], _BAND):
-        band = rows[lo : lo + _BAND].T
-        if scale is None:
-            out[:, lo : lo + _BAND] = band
-        else:
-            np.multiply(band, scale, out=out[:, lo : lo + _BAND])
-    return out
+@compiled
+def _simulate_block(inputs, ward, records):  # pragma: no cover - compiled
+    """Simulate every path of a block. ``inputs``: (offsets, arrival hours, stay days,
+    remaining days) as in ``DrawnInputs``; ``ward``: (beds open per day, shift start hours in
+    increasing order, True for policy "wait"); ``records``: (counts (paths, days, 8) in the
+    order of ``COUNTED``, wait hours (paths, days), shift peaks (paths, days, shifts) in the
+    order of the start hours), filled in."""
+    offsets, arrivals, stays, remaining = inputs
+    beds_open, starts, wait = ward
+    counts, wait_hours, shift_peak = records
+    paths, days = wait_hours.shape
+    shifts = starts.size
+    horizon = 24.0 * days
+    most = 0
+    for p in range(paths):
+        most = max(most, offsets[p + 1] - offsets[p])
+    heap = np.empty(most + remaining.shape[1])
+    queue = np.empty(max(most, 1), dtype=np.int64)  # waiting patients, first come first
+    queue_day = np.empty(max(most, 1), dtype=np.int64)  # and the day each arrived
+    queue_wait = np.empty(max(most, 1))  # and the hours each waited for a bed
+    for p in range(paths):
+        lo, hi = offsets[p], offsets[p + 1]
+        size = 0
+        for r in range(remaining.shape[1]):
+            size = _push(heap, size, 24.0 * remaining[p, r])
+        level = remaining.shape[1]
+        beds = beds_open[0]
+        head = tail = 0
+        a = lo
+        day = 0
+        day_peak = level
+        midnight = 24.0
+        interval = -1  # shift interval: day x shifts + position; -1 before the first start
+        shift_level = level
+        following = starts[0]
+        while True:
+            t_out = heap[0] if size > 0 else np.inf
+            t_in = arrivals[a] if a < hi else np.inf
+            t = min(t_out, t_in)
+            boundary = min(midnight, following)
+            if boundary <= t and boundary < horizon:  # records first, then events at t
+                if following == boundary:  # a shift starts: close the previous one
+                    if interval >= 0:
+                        shift_peak[p, interval // shifts, interval % shifts] = shift_level
+                    interval += 1
+                    shift_level = level
+                    following = 24.0 * ((interval + 1) // shifts) + starts[(interval + 1) % shifts]
+                if midnight == boundary:  # 00:00: the day's records, then bed changes
+                    counts[p, day, _CENSUS] = level
+                    counts[p, day, _PEAK] = day_peak
+                    counts[p, day, _QUEUE] = tail - head
+                    day += 1
+                    midnight += 24.0
+                    day_peak = level
+                    beds = beds_open[day]
+                    while wait and head < tail and level < beds:
+                        k = queue[head]
+                        queue_wait[head] = boundary - arrivals[k]
+                        head += 1
+                        level += 1
+                        counts[p, day, _BED_ADMISSIONS] += 1
+                        size = _push(heap, size, boundary + 24.0 * stays[k])
+                        day_peak = max(day_peak, level)
+                        shift_level = max(shift_level, level)
+                continue  # beds given at 00:00 may leave before the event at t
+            if t >= horizon:
+                break
+            if t_out <= t_in:  # a discharge (before an arrival at the same time)
+                size = _pop(heap, size)
+                counts[p, day, _DISCHARGES] += 1
+                if wait and head < tail and level <= beds:  # the bed goes to the queue's head
+                    k = queue[head]
+                    queue_wait[head] = t - arrivals[k]
+                    head += 1
+                    counts[p, day, _BED_ADMISSIONS] += 1
+                    size = _push(heap, size, t + 24.0 * stays[k])
+                else:
+                    level -= 1
+            else:
+                counts[p, day, _ADMISSIONS] += 1
+                if level < beds:
+                    level += 1
+                    counts[p, day, _BED_ADMISSIONS] += 1
+                    size = _push(heap, size, t + 24.0 * stays[a])
+                    day_peak = max(day_peak, level)
+                    shift_level = max(shift_level, level)
+                elif wait:
+                    counts[p, day, _WAITED] += 1
+                    queue[tail] = a
+                    queue_day[tail] = day
+                    tail += 1
+                else:
+                    counts[p, day, _DIVERTED] += 1
+                a += 1
+        counts[p, days - 1, _CENSUS] = level
+        counts[p, days - 1, _PEAK] = day_peak
+        counts[p, days - 1, _QUEUE] = tail - head
+        if interval >= 0:
+            shift_peak[p, interval // shifts, interval % shifts] = shift_level
+        for q in range(head, tail):  # still waiting at the end of the window
+            queue_wait[q] = horizon - arrivals[queue[q]]
+        for q in range(tail):  # summed in order of arrival
+            wait_hours[p, queue_day[q]] += queue_wait[q]
 
 
-def simpy_clock(arrival: np.ndarray) -> np.ndarray:
-    """The SimPy clock's reading of each arrival (slots x paths, hours): the running sum down
-    each column of the gaps between arrivals, the first gap from 0, added in order (as
-    ``np.cumsum(np.diff(arrival, axis=0, prepend=0.0), axis=0)``, one row at a time, which
-    is much faster for this layout)."""
-    clock = np.empty_like(arrival)
-    if arrival.shape[0]:
-        clock[0] = arrival[0]
-        np.subtract(arrival[1:], arrival[:-1], out=clock[1:])
-        for k in range(1, arrival.shape[0]):
-            np.add(clock[k - 1], clock[k], out=clock[k])
-    return clock
-
-
-def _shift_starts(ward: WardSettings) -> tuple[np.ndarray, np.ndarray]:
-    """Shift start hours in increasing order, and the staffing position of each."""
-    shifts = ward.staffing.shifts
-    order = np.argsort([shift.start_hour for shift in shifts], kind="stable")
-    return np.array([shifts[j].start_hour for j in order], dtype=float), order
-
-
-def _simulate_block(counts, model: WardModel, beds, seed, first_path):
-    """Daily measures (paths x days) and shift peaks (paths x days x shifts) of one block."""
-    paths, days = counts.shape
-    ward, elapsed = model.settings, model.inpatients_elapsed
-    totals = counts.sum(axis=1)
-    order = np.argsort(-totals, kind="stable")  # most arrivals first (see allocate_beds)
-    draws = draw_block(seed, first_path, totals, order, model.stays, elapsed)
-    rows = arrival_rows(draws.hour_uniforms, draws.within_uniforms, counts[order],
-                        model.hour_profile)  # fmt: skip
-    arrival = by_slot(rows)
-    stay = by_slot(draws.stay_days, 24.0)
-    remaining = 24.0 * draws.remaining_days
-    # The SimPy clock reads each arrival as the previous reading plus the gap between the two.
-    clock = simpy_clock(arrival)
-    times = allocate_beds(
-        arrival, clock, stay, totals[order], remaining[order], beds, wait=ward.policy == "wait"
+def simulate_drawn(inputs: DrawnInputs, model: WardModel, days: int) -> WardResult:
+    """Simulate ``model`` over ``days`` days for the paths whose random inputs are
+    ``inputs``."""
+    ward = model.settings
+    beds = beds_open_by_day(ward, model.start, days).astype(np.int64)
+    starts = np.array([shift.start_hour for shift in ward.staffing.shifts], dtype=float)
+    order = np.argsort(starts, kind="stable")
+    paths = inputs.paths
+    counts = np.zeros((paths, days, len(COUNTED)), dtype=np.int32)
+    wait_hours = np.zeros((paths, days))
+    peaks = np.zeros((paths, days, starts.size), dtype=np.int32)
+    _simulate_block(
+        (inputs.offsets, inputs.arrival_hours, inputs.stay_days, inputs.remaining_days),
+        (beds, starts[order], ward.policy == "wait"),
+        (counts, wait_hours, peaks),
     )
-    starts, shift_order = _shift_starts(ward)
-    daily, peaks = daily_records(times, arrival, order, counts, remaining, Pieces(days, starts))
     shift_peak = np.empty_like(peaks)
-    shift_peak[:, :, shift_order] = peaks
-    return daily, shift_peak
+    shift_peak[:, :, order] = peaks
+    daily = {name: counts[:, :, i] for i, name in enumerate(COUNTED)} | {"wait_hours": wait_hours}
+    return ward_result(model.start, inputs.first_path, daily, beds, shift_peak, ward.staffing)
 
 
 def simulate_ward_fast(
@@ -135,23 +215,8 @@ def simulate_ward_fast(
     first_path: int = 0,
 ) -> WardResult:
     """Simulate ``model`` for every path of daily ``arrivals`` (paths x days, patients): the
-    arguments and result of :func:`planner.simulate.ward.simulate_ward`, computed for many
-    paths at once with the same random numbers, so the same seed gives the same paths."""
+    arguments and result of :func:`planner.simulate.ward.simulate_ward`."""
     arrivals = np.asarray(arrivals)
     check_arrivals(arrivals)
-    ward, start = model.settings, model.start
-    counts = arrivals.astype(np.int64)
-    paths, days = counts.shape
-    beds = beds_open_by_day(ward, start, days)
-    daily = {name: np.zeros((paths, days), np.float64 if name == "wait_hours" else np.int32)
-             for name in PATH_DAILY}  # fmt: skip
-    shift_peak = np.zeros((paths, days, len(ward.staffing.shifts)), dtype=np.int32)
-    blocks = max(-(-paths // BLOCK_PATHS), 1)
-    bounds = [paths * b // blocks for b in range(blocks + 1)]  # blocks of nearly equal size
-    for lo, hi in zip(bounds[:-1], bounds[1:], strict=True):
-        if hi == lo:
-            continue
-        part, shift_peak[lo:hi] = _simulate_block(counts[lo:hi], model, beds, seed, first_path + lo)
-        for name in PATH_DAILY:
-            daily[name][lo:hi] = part[name]
-    return ward_result(start, first_path, daily, beds, shift_peak, ward.staffing)
+    inputs = draw_inputs(model, arrivals, seed, first_path)
+    return simulate_drawn(inputs, model, arrivals.shape[1])

@@ -12,7 +12,6 @@ from __future__ import annotations
 from collections.abc import Callable
 
 import numpy as np
-from scipy.integrate import cumulative_trapezoid
 
 from planner.errors import PlannerError
 
@@ -57,6 +56,8 @@ def integrated_survival(
 ) -> tuple[np.ndarray, np.ndarray]:
     """Grid ``x`` (days, 0..``upto_days``) and G(x) = integral_0^x P(S > v) dv (days),
     by the trapezoid rule on ``points`` equally spaced points."""
+    from scipy.integrate import cumulative_trapezoid  # here: a slow import, rarely needed
+
     grid = np.linspace(0.0, float(upto_days), int(points))
     return grid, cumulative_trapezoid(np.asarray(survival(grid), dtype=float), grid, initial=0.0)
 

@@ -8,6 +8,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from datetime import date
 
+from planner.schema import default
+
 
 @dataclass(frozen=True)
 class BedChange:
@@ -50,11 +52,14 @@ class RosterOverride:
 
 @dataclass(frozen=True)
 class StaffingSettings:
+    # The default rota is a structure the key table cannot hold: it is written here, and a
+    # scenario without [[staffing.shift]] gets it from here (planner.scenario); the table's
+    # text for [[staffing.shift]] describes it.
     shifts: tuple[Shift, ...] = (
         Shift("day", 7.0, 19.0, 4.0, (5, 5, 5, 5, 5, 5, 5)),
         Shift("night", 19.0, 7.0, 7.0, (3, 3, 3, 3, 3, 3, 3)),
     )
-    minimum_nurses: int = 2
+    minimum_nurses: int = default("staffing.minimum_nurses")
     overrides: tuple[RosterOverride, ...] = ()
 
 
@@ -67,11 +72,11 @@ class StaySettings:
     as one rescaling of the whole distribution, which keeps its shape (coefficient of variation).
     """
 
-    model: str = "empirical"
-    mean: float | None = None
-    sd: float | None = None
-    change_days: float = 0.0
-    scale: float = 1.0
+    model: str = default("stay.model")
+    mean: float | None = default("stay.mean")
+    sd: float | None = default("stay.sd")
+    change_days: float = default("stay.change_days")
+    scale: float = default("stay.scale")
 
 
 @dataclass(frozen=True)
@@ -80,7 +85,7 @@ class WardSettings:
     first come first served, for the next one) or "divert" (placed elsewhere and lost to this
     ward)."""
 
-    beds: int = 28
+    beds: int = default("beds.base")
     bed_changes: tuple[BedChange, ...] = ()
-    policy: str = "wait"
+    policy: str = default("beds.policy")
     staffing: StaffingSettings = field(default_factory=StaffingSettings)

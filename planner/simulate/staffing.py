@@ -26,27 +26,19 @@ def _hours(value: float) -> str:
 
 
 def validate_staffing(staffing: StaffingSettings) -> None:
-    """Raise PlannerError unless the shifts tile the 24 hours of the day without gap or overlap
-    and every value is usable (ratios > 0, rosters of 7 whole numbers >= 0, known shift names)."""
+    """Raise PlannerError unless the shifts have different names and tile the 24 hours of the
+    day without gap or overlap: the rules across shifts that the key table cannot express. Each
+    value's own limits (ratios, rosters, hours, nurses) and the shift named by an override are
+    checked when the scenario is read (:mod:`planner.schema`, :mod:`planner.scenario`)."""
     shifts = staffing.shifts
     if not shifts:
-        raise PlannerError("staffing.shifts: at least one shift is needed")
+        raise PlannerError("staffing.shift: at least one shift is needed")
     names = [shift.name for shift in shifts]
     for name in names:
         if names.count(name) > 1:
-            raise PlannerError(f"staffing.shifts: shift name {name!r} is used more than once")
-    for shift in shifts:
-        where = f"staffing.shifts[{shift.name!r}]"
-        for key in ("start_hour", "end_hour"):
-            hour = getattr(shift, key)
-            if not 0 <= hour < 24:
-                raise PlannerError(f"{where}.{key} must be in [0, 24), got {hour!r}")
-        if not shift.patients_per_nurse > 0:
-            raise PlannerError(f"{where}.patients_per_nurse must be > 0")
-        if len(shift.roster) != 7 or any(int(n) != n or n < 0 for n in shift.roster):
-            raise PlannerError(f"{where}.roster must be 7 whole numbers >= 0 (Mon..Sun)")
-    if int(staffing.minimum_nurses) != staffing.minimum_nurses or staffing.minimum_nurses < 0:
-        raise PlannerError("staffing.minimum_nurses must be a whole number >= 0")
+            raise PlannerError(
+                f"staffing.shift: shift names must differ ({name!r} is used more than once)"
+            )
     ordered = sorted(shifts, key=lambda shift: shift.start_hour)
     for i, shift in enumerate(ordered):
         following = ordered[(i + 1) % len(ordered)]
@@ -64,11 +56,6 @@ def validate_staffing(staffing: StaffingSettings) -> None:
                 f"{_hours(shift.end_hour)}) and {following.name!r} (starts "
                 f"{_hours(following.start_hour)}); {TILING}"
             )
-    for override in staffing.overrides:
-        if override.shift not in names:
-            raise PlannerError(f"staffing.overrides: unknown shift {override.shift!r}")
-        if int(override.nurses) != override.nurses or override.nurses < 0:
-            raise PlannerError("staffing.overrides: nurses must be a whole number >= 0")
 
 
 def rostered_nurses(staffing: StaffingSettings, start: date, days: int) -> np.ndarray:

@@ -3,7 +3,8 @@ choice between families, and the scenario's change of the mean stay (one rescali
 
 With stays still in progress (right-censored, see :mod:`planner.simulate.survival`) the fits
 maximise the censored log-likelihood, sum of log f(x) over ended stays plus log S(x) over
-censored ones, and "empirical" is the Kaplan-Meier estimate.
+censored ones, and "empirical" is the Kaplan-Meier estimate. A scenario that asks for
+"empirical" stays fits no family (:func:`empirical_stays`), so it never imports scipy.stats.
 """
 
 from __future__ import annotations
@@ -12,13 +13,11 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize, special, stats
 
 from planner.errors import PlannerError
 from planner.simulate.settings import StaySettings
 from planner.simulate.stays import (
     BEST_CANDIDATES,
-    MODELS,
     PARAMETRIC_MODELS,
     Empirical,
     Exponential,
@@ -27,7 +26,6 @@ from planner.simulate.stays import (
     ParametricStay,
     StayDistribution,
     Weibull,
-    positive_number,
     stays_array,
 )
 from planner.simulate.survival import KaplanMeierStays, checked_stays
@@ -43,13 +41,10 @@ class StayFit:
     n: int
 
 
-def _check_model(model: str, key: str) -> None:
-    if model not in MODELS:
-        raise PlannerError(f"{key} must be one of {', '.join(MODELS)}; got {model!r}")
-
-
 def _fit_family(name: str, x: np.ndarray) -> tuple[ParametricStay, int]:
     """MLE with location fixed at 0 (scipy.stats ``fit(floc=0)``); returns (fit, k)."""
+    from scipy import stats
+
     if name == "exponential":
         return Exponential(float(x.mean())), 1
     if name == "lognormal":
@@ -74,17 +69,14 @@ def fit_stays(
     """
     if observed is not None:
         return fit_censored_stays(stays, observed, model)
-    _check_model(model, "model")
-    x = stays_array(stays)
-    if np.ptp(x) == 0:
-        raise PlannerError("stays: all lengths of stay are equal; cannot fit a distribution")
+    x = _spread(stays_array(stays))
     fits, aic = {}, {}
     for name in PARAMETRIC_MODELS:
         fitted, k = _fit_family(name, x)
         fits[name] = fitted
         aic[name] = 2 * k - 2 * float(np.sum(fitted.scipy.logpdf(x)))
     if model == "empirical":
-        chosen: StayDistribution = Empirical(x)
+        chosen: StayDistribution = empirical_stays(x)
     elif model == "best":
         chosen = fits[min(BEST_CANDIDATES, key=aic.__getitem__)]
     else:
@@ -92,9 +84,27 @@ def fit_stays(
     return StayFit(chosen, aic, int(x.size))
 
 
+def _spread(x: np.ndarray) -> np.ndarray:
+    if np.ptp(x) == 0:
+        raise PlannerError("stays: all lengths of stay are equal; cannot fit a distribution")
+    return x
+
+
+def empirical_stays(stays: np.ndarray, observed: np.ndarray | None = None) -> StayDistribution:
+    """The stays themselves (days): resampled, or with ``observed`` (False for stays still in
+    progress) the Kaplan-Meier estimate; the distribution that :func:`fit_stays` chooses for
+    "empirical", without fitting the parametric families."""
+    if observed is None:
+        return Empirical(_spread(stays_array(stays)))
+    x, ended = checked_stays(stays, observed)
+    return KaplanMeierStays(_spread(x), ended)
+
+
 def _censored_log_likelihood(family: ParametricStay, x: np.ndarray, ended: np.ndarray) -> float:
     """Sum of log f over ended stays and log S over censored stays (days), written out per
     family (the same values as scipy.stats ``logpdf`` / ``logsf``, much faster)."""
+    from scipy import special
+
     if isinstance(family, Lognormal):
         z = (np.log(x) - family.mu) / family.sigma
         log_f = -np.log(x[ended]) - math.log(family.sigma) - 0.5 * math.log(2 * math.pi)
@@ -134,6 +144,8 @@ def _fit_censored_family(name: str, x: np.ndarray, ended: np.ndarray) -> tuple[P
     if name == "exponential":
         # Closed form: total time on the ward over the number of ended stays.
         return Exponential(float(x.sum() / np.count_nonzero(ended))), 1
+    from scipy import optimize
+
     done = x[ended] if np.ptp(x[ended]) > 0 else x
     start = _start(_fit_family(name, done)[0])
 
@@ -160,10 +172,8 @@ def fit_censored_stays(durations: np.ndarray, observed: np.ndarray, model: str =
     so far when False. ``model`` as in :func:`fit_stays`; "empirical" gives the Kaplan-Meier
     distribution. AIC = 2 k - 2 (censored log-likelihood at the MLE).
     """
-    _check_model(model, "model")
     x, ended = checked_stays(durations, observed)
-    if np.ptp(x) == 0:
-        raise PlannerError("stays: all lengths of stay are equal; cannot fit a distribution")
+    _spread(x)
     fits, aic = {}, {}
     for name in PARAMETRIC_MODELS:
         fitted, k = _fit_censored_family(name, x, ended)
@@ -179,15 +189,8 @@ def fit_censored_stays(durations: np.ndarray, observed: np.ndarray, model: str =
 
 
 def _from_mean_sd(model: str, mean: float, sd: float | None) -> StayDistribution:
-    _check_model(model, "stay.model")
-    mean = positive_number(mean, "stay.mean")
     if model == "exponential":
-        if sd is not None and not math.isclose(sd, mean, rel_tol=1e-9):
-            raise PlannerError("stay.sd: an exponential stay has sd equal to its mean; omit sd")
         return Exponential.from_mean(mean)
-    if sd is None:
-        raise PlannerError(f"stay.sd is required with stay.mean for model {model!r}")
-    sd = positive_number(sd, "stay.sd")
     family = {"gamma": Gamma, "weibull": Weibull}.get(model, Lognormal)
     return family.from_mean_sd(mean, sd)
 
@@ -203,19 +206,19 @@ def stay_distribution(
     progress, by censored maximum likelihood / Kaplan-Meier). Finally every stay is multiplied by
     ``(mean + change_days) / mean * scale``, so the mean becomes
     ``(mean + change_days) * scale`` and the coefficient of variation is kept.
+
+    ``settings`` are taken as the scenario reader makes them: each key within its limits
+    (:mod:`planner.schema`) and ``sd`` only with ``mean`` (:mod:`planner.scenario`).
     """
     if settings.mean is not None:
         distribution = _from_mean_sd(settings.model, settings.mean, settings.sd)
-    elif settings.sd is not None:
-        raise PlannerError("stay.mean is required when stay.sd is given")
     elif stays is None or np.size(stays) == 0:
         raise PlannerError("stays: no episodes to fit the length of stay to; give stay.mean")
+    elif settings.model == "empirical":
+        distribution = empirical_stays(stays, observed)
     else:
         distribution = fit_stays(stays, settings.model, observed).distribution
-    scale = positive_number(settings.scale, "stay.scale")
-    if not math.isfinite(settings.change_days):
-        raise PlannerError(f"stay.change_days must be a finite number, got {settings.change_days}")
-    new_mean = (distribution.mean + settings.change_days) * scale
+    new_mean = (distribution.mean + settings.change_days) * settings.scale
     if new_mean <= 0:
         raise PlannerError(
             f"stay.change_days: mean stay {distribution.mean:.2f} d "

@@ -1,11 +1,17 @@
 """Length of stay: distributions of a patient's stay on the ward, in days.
 
-A ``StayDistribution`` is immutable. It draws stays (``sample``), gives the chance a stay lasts
-longer than t days (``survival``), draws the remaining stay of patients already on the ward
-(``sample_remaining``) and rescales every stay by a factor (``rescaled``). Fitting them to
+A ``StayDistribution`` is immutable. It turns uniforms into stays (``from_uniforms``, the
+inverse transform) and into the remaining stays of patients already on the ward
+(``remaining_from_uniforms``), draws either from a generator (``sample``,
+``sample_remaining``), gives the chance a stay lasts longer than t days (``survival``) and
+rescales every stay by a factor (``rescaled``). The simulation draws its uniforms in
+:mod:`planner.simulate.sampling`. Fitting them to
 episodes and reading the scenario's ``[stay]`` settings is in :mod:`planner.simulate.stay_fit`.
 
 Stays are floats > 0: a draw that would round to 0 is raised to ``MINIMUM_STAY_DAYS``.
+
+scipy is imported where it is used (scipy.stats alone takes about half a second to import, and
+a ward with empirical stays never needs it).
 """
 
 from __future__ import annotations
@@ -13,13 +19,14 @@ from __future__ import annotations
 import math
 from abc import ABC, abstractmethod
 from dataclasses import dataclass, field
-from typing import ClassVar
+from typing import TYPE_CHECKING, ClassVar
 
 import numpy as np
-from scipy import optimize, special, stats
 
 from planner.errors import PlannerError
-from planner.schema import choices
+
+if TYPE_CHECKING:
+    from scipy import stats
 
 #: Shortest stay returned, in days (about 0.1 ms); keeps every stay strictly positive.
 MINIMUM_STAY_DAYS = 1e-9
@@ -30,8 +37,6 @@ _UNDERFLOW = 1e-300
 PARAMETRIC_MODELS = ("lognormal", "gamma", "weibull", "exponential")
 #: Families compared when ``model="best"``.
 BEST_CANDIDATES = ("lognormal", "gamma", "weibull")
-#: The models a scenario can name: "empirical", "best" and the parametric families.
-MODELS = choices("stay.model")
 
 
 def positive_number(value: float, name: str) -> float:
@@ -69,18 +74,33 @@ class StayDistribution(ABC):
     def sd(self) -> float:
         """Standard deviation of the stay, days."""
 
+    #: True when :meth:`from_uniforms` is how stays are drawn (one uniform per stay,
+    #: transformed alone), so many paths' uniforms can be transformed at once; False when
+    #: :meth:`sample` draws them otherwise.
+    inverse_transform: ClassVar[bool] = True
+
     @abstractmethod
-    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
-        """``size`` independent stays, days (float array, all > 0)."""
+    def from_uniforms(self, u: np.ndarray) -> np.ndarray:
+        """Stays (days, > 0), one per uniform u in (0, 1]: the stay s with P(S > s) = u."""
+
+    @abstractmethod
+    def remaining_from_uniforms(self, u: np.ndarray, elapsed: np.ndarray) -> np.ndarray:
+        """Remaining stays r (days, > 0) of patients already in for ``elapsed`` days, one per
+        uniform u in (0, 1]: P(S > e + r | S > e) = u."""
 
     @abstractmethod
     def survival(self, t: np.ndarray) -> np.ndarray:
         """P(S > t) for stays t in days (array of the same shape)."""
 
-    @abstractmethod
+    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
+        """``size`` independent stays, days (float array, all > 0)."""
+        return self.from_uniforms(_uniform_open_closed(rng, size))
+
     def sample_remaining(self, rng: np.random.Generator, elapsed: np.ndarray) -> np.ndarray:
-        """Remaining stay r (days, > 0) of patients already in for ``elapsed`` days, one per
-        patient, drawn from P(S > e + r | S > e). Uses exactly one uniform per patient."""
+        """Remaining stays (days, > 0) of patients already in for ``elapsed`` days, one
+        uniform per patient."""
+        e = _elapsed_days(elapsed)
+        return self.remaining_from_uniforms(_uniform_open_closed(rng, e.shape), e)
 
     @abstractmethod
     def rescaled(self, factor: float) -> StayDistribution:
@@ -110,10 +130,13 @@ class ParametricStay(StayDistribution):
     def survival(self, t: np.ndarray) -> np.ndarray:
         return np.asarray(self.scipy.sf(np.asarray(t, dtype=float)), dtype=float)
 
-    def sample_remaining(self, rng: np.random.Generator, elapsed: np.ndarray) -> np.ndarray:
+    def from_uniforms(self, u: np.ndarray) -> np.ndarray:
+        u = np.asarray(u, dtype=float)
+        return np.maximum(self._remaining(u, np.zeros_like(u)), MINIMUM_STAY_DAYS)
+
+    def remaining_from_uniforms(self, u: np.ndarray, elapsed: np.ndarray) -> np.ndarray:
         e = _elapsed_days(elapsed)
-        u = _uniform_open_closed(rng, e.shape)
-        return np.maximum(self._remaining(u, e), MINIMUM_STAY_DAYS)
+        return np.maximum(self._remaining(np.asarray(u, dtype=float), e), MINIMUM_STAY_DAYS)
 
     @abstractmethod
     def _remaining(self, u: np.ndarray, e: np.ndarray) -> np.ndarray:
@@ -143,14 +166,15 @@ class Lognormal(ParametricStay):
 
     @property
     def scipy(self) -> stats.rv_continuous:
-        return stats.lognorm(self.sigma, scale=math.exp(self.mu))
+        from scipy import stats
 
-    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
-        return np.maximum(rng.lognormal(self.mu, self.sigma, size), MINIMUM_STAY_DAYS)
+        return stats.lognorm(self.sigma, scale=math.exp(self.mu))
 
     def _remaining(self, u: np.ndarray, e: np.ndarray) -> np.ndarray:
         # In log space throughout: log P(S > t) = log_ndtr(-z(t)), inverted by ndtri_exp, so
         # the far tail (P(S > e) below 1e-308) does not underflow.
+        from scipy import special
+
         with np.errstate(divide="ignore"):
             z_e = (np.log(e) - self.mu) / self.sigma
         log_target = np.log(u) + special.log_ndtr(-z_e)
@@ -168,6 +192,9 @@ class Gamma(ParametricStay):
     shape: float
     scale: float
     name: ClassVar[str] = "gamma"
+    #: The inverse of the gamma's survival (``gammainccinv``) costs about 0.5 us a stay; a
+    #: generator draws gamma stays about twenty times faster.
+    inverse_transform: ClassVar[bool] = False
 
     def __post_init__(self) -> None:
         positive_number(self.shape, "shape")
@@ -181,6 +208,8 @@ class Gamma(ParametricStay):
 
     @property
     def scipy(self) -> stats.rv_continuous:
+        from scipy import stats
+
         return stats.gamma(self.shape, scale=self.scale)
 
     def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
@@ -190,6 +219,8 @@ class Gamma(ParametricStay):
         # r = isf(u sf(e)) - e. When u sf(e) underflows (below 1e-300, e deep in the tail) the
         # stay is drawn from the limit of the gamma's residual life, exponential with mean
         # theta (the hazard tends to 1/theta), using the same uniform.
+        from scipy import special
+
         target = u * special.gammaincc(self.shape, e / self.scale)
         tail = target < _UNDERFLOW
         r = np.empty_like(e)
@@ -204,6 +235,7 @@ class Gamma(ParametricStay):
 def _weibull_shape_for_cv(cv: float) -> float:
     """Weibull shape k with coefficient of variation ``cv``:
     cv^2 = Gamma(1 + 2/k) / Gamma(1 + 1/k)^2 - 1, decreasing in k."""
+    from scipy import optimize, special
 
     def gap(log_k: float) -> float:
         k = math.exp(log_k)
@@ -237,10 +269,9 @@ class Weibull(ParametricStay):
 
     @property
     def scipy(self) -> stats.rv_continuous:
-        return stats.weibull_min(self.shape, scale=self.scale)
+        from scipy import stats
 
-    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
-        return np.maximum(self.scale * rng.weibull(self.shape, size), MINIMUM_STAY_DAYS)
+        return stats.weibull_min(self.shape, scale=self.scale)
 
     def _remaining(self, u: np.ndarray, e: np.ndarray) -> np.ndarray:
         # Closed form, no underflow: -log P(S > t) = (t/lambda)^k, so the conditional target
@@ -267,10 +298,9 @@ class Exponential(ParametricStay):
 
     @property
     def scipy(self) -> stats.rv_continuous:
-        return stats.expon(scale=self.mean_days)
+        from scipy import stats
 
-    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
-        return np.maximum(rng.exponential(self.mean_days, size), MINIMUM_STAY_DAYS)
+        return stats.expon(scale=self.mean_days)
 
     def _remaining(self, u: np.ndarray, e: np.ndarray) -> np.ndarray:
         return -self.mean_days * np.log(u)
@@ -320,16 +350,17 @@ class Empirical(StayDistribution):
     def sd(self) -> float:
         return float(self.stays.std())
 
-    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
-        return self.stays[rng.integers(0, self.stays.size, size)]
+    def from_uniforms(self, u: np.ndarray) -> np.ndarray:
+        n = self.stays.size
+        return self.stays[np.minimum(np.floor((1 - np.asarray(u)) * n).astype(np.intp), n - 1)]
 
     def survival(self, t: np.ndarray) -> np.ndarray:
         n = self.stays.size
         return (n - np.searchsorted(self.stays, np.asarray(t, dtype=float), "right")) / n
 
-    def sample_remaining(self, rng: np.random.Generator, elapsed: np.ndarray) -> np.ndarray:
+    def remaining_from_uniforms(self, u: np.ndarray, elapsed: np.ndarray) -> np.ndarray:
         e = _elapsed_days(elapsed)
-        u = _uniform_open_closed(rng, e.shape)
+        u = np.asarray(u, dtype=float)
         n = self.stays.size
         first_longer = np.searchsorted(self.stays, e, "right")  # stays[first_longer:] > e
         longer = n - first_longer

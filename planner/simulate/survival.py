@@ -30,7 +30,6 @@ from planner.simulate.stays import (
     MINIMUM_STAY_DAYS,
     StayDistribution,
     _elapsed_days,
-    _uniform_open_closed,
     positive_number,
 )
 
@@ -168,13 +167,13 @@ class KaplanMeierStays(StayDistribution):
             stay[beyond] = np.maximum(tail, np.broadcast_to(after, target.shape)[beyond])
         return stay
 
-    def sample(self, rng: np.random.Generator, size: int) -> np.ndarray:
-        u = _uniform_open_closed(rng, size)
+    def from_uniforms(self, u: np.ndarray) -> np.ndarray:
+        u = np.asarray(u, dtype=float)
         return np.maximum(self._inverse(u, 0.0), MINIMUM_STAY_DAYS)
 
-    def sample_remaining(self, rng: np.random.Generator, elapsed: np.ndarray) -> np.ndarray:
+    def remaining_from_uniforms(self, u: np.ndarray, elapsed: np.ndarray) -> np.ndarray:
         e = _elapsed_days(elapsed)
-        u = _uniform_open_closed(rng, e.shape)
+        u = np.asarray(u, dtype=float)
         beyond = e > self.estimate.largest
         # Past the longest recorded stay the tail is exponential, so the remaining stay is too.
         r_tail = -self.tail_mean_days * np.log(u)

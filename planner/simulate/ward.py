@@ -1,10 +1,22 @@
 """Ward simulation: beds, admissions and discharges for each forecast path (SimPy).
 
-One simulation per path, in hours since 00:00 of the first day. Each path gets its own child
-``SeedSequence`` (path ``i`` uses ``SeedSequence(seed).spawn(...)[i]``), so results do not depend
-on how paths are chunked or run in parallel. Within a path, three streams are spawned:
-arrival times within days, stays of new patients (drawn in arrival order and given at arrival,
-so two ward plans run with the same seed share stays), remaining stays of current inpatients.
+One SimPy environment per path, in hours since 00:00 of the first day. The random inputs
+(arrival hours, stays, remaining stays of the patients on the ward at the start) are drawn
+beforehand by :func:`planner.simulate.sampling.draw_inputs`, as for the fast engine; the model
+draws no random number itself, so a result depends on the seed only through those inputs.
+
+The model, per path:
+- beds are a ``simpy.PriorityResource`` whose capacity is the most beds open on any day of the
+  window (at least the patients on the ward at the start, and at least 1);
+- the bed-change process holds the beds closed on a day with closure requests (priority 0,
+  before any patient), issued at 00:00 of the day beds open fall and released, or cancelled
+  while still waiting, at 00:00 of the day they rise; a closure that finds every bed taken by
+  a patient waits at the head of the queue and takes the bed when its patient leaves;
+- each patient on the ward at the start holds a bed from time 0 and leaves after the remaining
+  stay; each new patient arrives at the drawn hour, asks for a bed (priority 1, first come,
+  first served) and leaves a stay after getting one;
+- the patient processes log the occupied beds (patients only, never closures) as they change;
+  the daily and shift measures are read from that log afterwards.
 
 Bed rules:
 - beds open = ``ward.beds`` + every ``BedChange`` in force that day (00:00 of start to 24:00 of
@@ -12,8 +24,9 @@ Bed rules:
 - a new patient gets a bed only while occupied beds < beds open;
 - when beds close while more patients are in than beds open, nobody is moved: the patient stays
   until discharge and the bed closes then, so occupancy can exceed beds open only this way;
-- no free bed: policy "wait" queues the patient (first come, first served; the stay starts when
-  a bed is taken), policy "divert" places the patient elsewhere (overflow, lost to this ward).
+- no free bed (every bed taken by a patient or a closure, or a closure still waiting): policy
+  "wait" queues the patient (first come, first served; the stay starts when a bed is taken),
+  policy "divert" places the patient elsewhere (overflow, lost to this ward).
 
 The window is the days of the arrival paths; patients still in beds or waiting at its end are
 counted as such, and a patient still waiting contributes the hours waited up to the end.
@@ -22,7 +35,6 @@ For every path: current inpatients + arrivals = discharges + in beds at end + di
 
 from __future__ import annotations
 
-from collections import deque
 from datetime import date, timedelta
 from typing import TYPE_CHECKING
 
@@ -30,12 +42,15 @@ import numpy as np
 import simpy
 
 from planner.errors import PlannerError
-from planner.simulate.arrivals import arrival_times
 from planner.simulate.result import PATH_DAILY, WardResult, ward_result
+from planner.simulate.sampling import DrawnInputs, draw_inputs
 from planner.simulate.settings import WardSettings
 
 if TYPE_CHECKING:
     from planner.simulate.model import WardModel
+
+#: Request priorities: a closure goes before every waiting patient.
+CLOSURE, PATIENT = 0, 1
 
 
 def beds_open_by_day(ward: WardSettings, start: date, days: int) -> np.ndarray:
@@ -54,88 +69,85 @@ def beds_open_by_day(ward: WardSettings, start: date, days: int) -> np.ndarray:
     return beds.astype(np.int32)
 
 
-def path_seeds(seed: int | np.random.SeedSequence, paths: int, first_path: int = 0) -> list:
-    """Child SeedSequence of each path: path ``first_path + i`` of ``SeedSequence(seed)``."""
-    base = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)
-    return [
-        np.random.SeedSequence(base.entropy, spawn_key=(*base.spawn_key, first_path + i))
-        for i in range(paths)
-    ]
+def check_arrivals(arrivals: np.ndarray) -> None:
+    """Refuse daily arrivals that are not a (paths x days) array of whole numbers >= 0."""
+    if arrivals.ndim != 2 or arrivals.shape[1] == 0:
+        raise PlannerError("arrivals must be a (paths x days) array with at least one day")
+    if np.any(arrivals < 0) or not np.all(arrivals == np.round(arrivals)):
+        raise PlannerError("arrivals must be whole numbers >= 0")
 
 
-def _run_path(arrival_hours, stay_hours, remaining_hours, beds_open, wait):
-    """SimPy loop for one path (times in hours). Returns the patients' bed times (NaN if never
-    in a bed), discharge times, ids of patients who waited and who were diverted, and the
-    occupancy log (times, occupied beds after each change)."""
+def _run_path(arrival_hours, stay_days, remaining_days, beds_open, divert):
+    """Run one path in SimPy until the end of the window (hours).
+
+    Returns the occupancy log (hours and changes in occupied beds, +1 or -1, after a first
+    entry at hour -1 holding the patients in beds at the start), the patients (numbered in
+    arrival order) who found no free bed, and those of them given a bed later with the hours
+    they got it."""
     env = simpy.Environment()
-    timeout = env.timeout
-    arrivals = arrival_hours.tolist()
-    stay = stay_hours.tolist()
-    bed_hour = [np.nan] * len(arrivals)
-    discharged, waited, diverted, queue = [], [], [], deque()
-    occupied = len(remaining_hours)
-    log_hour, log_level = [-1.0], [occupied]  # the level before time 0
-    beds = int(beds_open[0])
-    following = 0
+    capacity = max(int(beds_open.max()), len(remaining_days), 1)
+    beds = simpy.PriorityResource(env, capacity)
+    timeout, request, release = env.timeout, beds.request, beds.release
+    users, queue = beds.users, beds.queue
+    log_hour, log_change = [-1.0], [len(remaining_days)]
+    logged, changed = log_hour.append, log_change.append
+    no_bed, from_queue, bed_hour = [], [], []
 
-    def discharge(_event):
-        nonlocal occupied
-        now = env.now
-        discharged.append(now)
-        if queue and occupied <= beds:
-            patient = queue.popleft()  # the freed bed goes straight to the head of the queue
-            bed_hour[patient] = now
-            timeout(stay[patient]).callbacks.append(discharge)
-        else:
-            occupied -= 1
-            log_hour.append(now)
-            log_level.append(occupied)
+    def inpatient(env, hours):
+        bed = request(PATIENT)  # granted at once: the first requests, and capacity suffices
+        yield timeout(hours)
+        logged(env.now)
+        changed(-1)
+        release(bed)
 
-    def arrive(_event):
-        nonlocal occupied, following
-        patient = following
-        following += 1
-        now = arrivals[patient]  # exact, where env.now may differ by rounding of the gaps
-        if occupied < beds:
-            occupied += 1
-            log_hour.append(now)
-            log_level.append(occupied)
-            bed_hour[patient] = now
-            timeout(stay[patient]).callbacks.append(discharge)
-        elif wait:
-            waited.append(patient)
-            queue.append(patient)
-        else:
-            diverted.append(patient)
-        if following < len(arrivals):
-            timeout(arrivals[following] - now).callbacks.append(arrive)
+    def patient(env, number, arrive, stay):
+        yield timeout(arrive)  # from time 0, so env.now is the drawn hour exactly
+        if divert and (len(users) >= capacity or queue):  # every bed taken, or a closure waits
+            no_bed.append(number)
+            return
+        bed = request(PATIENT)
+        if not bed.triggered:  # no free bed: wait in the queue, first come, first served
+            no_bed.append(number)
+            yield bed
+            from_queue.append(number)
+            bed_hour.append(env.now)
+        logged(env.now)
+        changed(1)
+        yield timeout(stay)
+        logged(env.now)
+        changed(-1)
+        release(bed)
 
-    def change_beds(event):
-        nonlocal beds, occupied
-        beds = event.value
-        while queue and occupied < beds:
-            occupied += 1
-            log_hour.append(env.now)
-            log_level.append(occupied)
-            patient = queue.popleft()
-            bed_hour[patient] = env.now
-            timeout(stay[patient]).callbacks.append(discharge)
+    closures = []  # granted ones first: closures are served in the order issued
 
-    for hours in remaining_hours.tolist():
-        timeout(hours).callbacks.append(discharge)
-    for day in np.flatnonzero(np.diff(beds_open)) + 1:
-        timeout(24.0 * day, int(beds_open[day])).callbacks.append(change_beds)
-    if arrivals:
-        timeout(arrivals[0]).callbacks.append(arrive)
-    env.run(until=24.0 * len(beds_open))
-    return (
-        np.array(bed_hour),
-        np.array(discharged),
-        np.array(waited, dtype=np.int64),
-        np.array(diverted, dtype=np.int64),
-        np.array(log_hour),
-        np.array(log_level),
-    )
+    def change_beds(env, day, closed):
+        if day:
+            yield timeout(24.0 * day)  # from time 0: exactly 24 d
+        while len(closures) < closed:
+            closures.append(request(CLOSURE))
+        while len(closures) > closed:
+            closure = closures.pop()
+            if closure.triggered:
+                release(closure)
+            else:
+                closure.cancel()
+
+    process = env.process
+    days = np.concatenate([[0], np.flatnonzero(np.diff(beds_open)) + 1]).tolist()
+    changes = [(day, capacity - int(beds_open[day])) for day in days]
+    # Later changes are scheduled first, so at 00:00 a bed change comes before any discharge
+    # at that same moment (as in the fast engine); the first day's closures come after the
+    # patients on the ward have taken their beds.
+    for day, closed in changes[1:]:
+        process(change_beds(env, day, closed))
+    for hours in (24.0 * remaining_days).tolist():
+        process(inpatient(env, hours))
+    process(change_beds(env, *changes[0]))
+    stays = (24.0 * stay_days).tolist()
+    for number, (arrive, stay) in enumerate(zip(arrival_hours.tolist(), stays, strict=True)):
+        process(patient(env, number, arrive, stay))
+    env.run(until=24.0 * beds_open.size)
+    return log_hour, log_change, no_bed, from_queue, bed_hour
 
 
 def _levels_and_peaks(times, levels, boundaries):
@@ -147,12 +159,52 @@ def _levels_and_peaks(times, levels, boundaries):
     return levels[index], np.maximum(within, levels[index[1:]])
 
 
-def check_arrivals(arrivals: np.ndarray) -> None:
-    """Refuse daily arrivals that are not a (paths x days) array of whole numbers >= 0."""
-    if arrivals.ndim != 2 or arrivals.shape[1] == 0:
-        raise PlannerError("arrivals must be a (paths x days) array with at least one day")
-    if np.any(arrivals < 0) or not np.all(arrivals == np.round(arrivals)):
-        raise PlannerError("arrivals must be whole numbers >= 0")
+def simulate_drawn(inputs: DrawnInputs, model: WardModel, days: int) -> WardResult:
+    """Simulate ``model`` over ``days`` days for every path of ``inputs`` (arrival hours,
+    stays and remaining stays drawn by :func:`planner.simulate.sampling.draw_inputs`), one
+    SimPy run per path. Draws no random number: the same inputs give the same result."""
+    ward, start = model.settings, model.start
+    paths, horizon = inputs.paths, 24.0 * days
+    beds = beds_open_by_day(ward, start, days)
+    shifts = ward.staffing.shifts
+    order = np.argsort([shift.start_hour for shift in shifts], kind="stable")
+    starts = np.array([shifts[j].start_hour for j in order])
+    shift_bounds = np.append((24.0 * np.arange(days)[:, None] + starts).ravel(), horizon)
+    day_bounds = 24.0 * np.arange(days + 1)
+    daily = {name: np.zeros((paths, days), dtype=np.float64) for name in PATH_DAILY}
+    shift_peak = np.zeros((paths, days, len(shifts)), dtype=np.int32)
+    divert = ward.policy == "divert"
+
+    def day_of(hours):
+        return np.minimum((np.asarray(hours) // 24.0).astype(np.int64), days - 1)
+
+    def per_day(day, weights=None):
+        return np.bincount(day, weights=weights, minlength=days)
+
+    for i in range(paths):
+        hours, stay_days, remaining_days = inputs.path(i)
+        log_hour, log_change, no_bed, from_queue, bed_hour = _run_path(
+            hours, stay_days, remaining_days, beds, divert
+        )
+        log_hour, log_change = np.array(log_hour), np.array(log_change)
+        levels = np.cumsum(log_change)
+        at_midnight, daily["peak_occupancy"][i] = _levels_and_peaks(log_hour, levels, day_bounds)
+        daily["census"][i] = at_midnight[1:]
+        arrival_day = day_of(hours)
+        no_bed = np.array(no_bed, dtype=np.int64)
+        daily["admissions"][i] = per_day(arrival_day)
+        daily["bed_admissions"][i] = per_day(day_of(log_hour[1:][log_change[1:] > 0]))
+        daily["discharges"][i] = per_day(day_of(log_hour[1:][log_change[1:] < 0]))
+        daily["diverted" if divert else "waited"][i] = per_day(arrival_day[no_bed])
+        if not divert:  # waited until given a bed, or until the end of the window
+            waited_until = np.full(hours.size, horizon)
+            waited_until[np.array(from_queue, dtype=np.int64)] = bed_hour
+            daily["wait_hours"][i] = per_day(arrival_day[no_bed], (waited_until - hours)[no_bed])
+            given = np.cumsum(per_day(day_of(bed_hour)))
+            daily["queue"][i] = np.cumsum(daily["waited"][i]) - given
+        _, peaks = _levels_and_peaks(log_hour, levels, shift_bounds)
+        shift_peak[i][:, order] = peaks.reshape(days, len(shifts))
+    return ward_result(start, inputs.first_path, daily, beds, shift_peak, ward.staffing)
 
 
 def simulate_ward(
@@ -164,66 +216,12 @@ def simulate_ward(
 ) -> WardResult:
     """Simulate ``model`` for every path of daily ``arrivals`` (paths x days, patients).
 
-    The model's stays give ``sample(rng, size)`` and ``sample_remaining(rng, elapsed)``
-    (days); its patients on the ward at the start keep their beds until their remaining stays
-    end. ``first_path``: number of the first path, so that chunks of paths run separately give
-    the same result as one run. The same ``seed`` gives the same result.
+    The random inputs of path ``first_path + i`` come from its own stream of ``seed``
+    (:func:`planner.simulate.sampling.draw_inputs`), so chunks of paths run separately give
+    the same result as one run, and the same ``seed`` gives the same result. The patients on
+    the ward at the start keep their beds until their remaining stays end.
     """
     arrivals = np.asarray(arrivals)
     check_arrivals(arrivals)
-    ward, stays, start = model.settings, model.stays, model.start
-    elapsed, profile = model.inpatients_elapsed, model.hour_profile
-    arrivals = arrivals.astype(np.int64)
-    paths, days = arrivals.shape
-    horizon = 24.0 * days
-    beds = beds_open_by_day(ward, start, days)
-    shifts = ward.staffing.shifts
-    order = np.argsort([shift.start_hour for shift in shifts], kind="stable")
-    starts = np.array([shifts[j].start_hour for j in order])
-    shift_bounds = np.append((24.0 * np.arange(days)[:, None] + starts).ravel(), horizon)
-    day_bounds = 24.0 * np.arange(days + 1)
-    daily = {name: np.zeros((paths, days), dtype=np.float64) for name in PATH_DAILY}
-    shift_peak = np.zeros((paths, days, len(shifts)), dtype=np.int32)
-
-    def day_of(hours):
-        return np.minimum((hours // 24.0).astype(np.int64), days - 1)
-
-    def per_day(hours_or_days, weights=None):
-        return np.bincount(hours_or_days, weights=weights, minlength=days)
-
-    for i, path_seed in enumerate(path_seeds(seed, paths, first_path)):
-        arrival_seed, stay_seed, remaining_seed = path_seed.spawn(3)
-        counts = arrivals[i]
-        total = int(counts.sum())
-        hours = np.asarray(
-            arrival_times(np.random.default_rng(arrival_seed), counts, profile) if total else [],
-            dtype=float,
-        )
-        stay_hours = 24.0 * np.asarray(stays.sample(np.random.default_rng(stay_seed), total))
-        remaining = (
-            24.0
-            * np.asarray(stays.sample_remaining(np.random.default_rng(remaining_seed), elapsed))
-            if elapsed.size
-            else np.zeros(0)
-        )
-        bed_hour, discharged, waited, diverted, log_hour, log_level = _run_path(
-            hours, stay_hours, remaining, beds, ward.policy == "wait"
-        )
-        arrival_day = np.repeat(np.arange(days), counts)
-        in_bed = ~np.isnan(bed_hour)
-        from_queue = waited[in_bed[waited]]
-        waited_until = np.where(in_bed[waited], bed_hour[waited], horizon)
-        at_midnight, daily["peak_occupancy"][i] = _levels_and_peaks(log_hour, log_level, day_bounds)
-        daily["census"][i] = at_midnight[1:]
-        daily["admissions"][i] = counts
-        daily["bed_admissions"][i] = per_day(day_of(bed_hour[in_bed]))
-        daily["discharges"][i] = per_day(day_of(discharged))
-        daily["waited"][i] = per_day(arrival_day[waited])
-        daily["diverted"][i] = per_day(arrival_day[diverted])
-        daily["wait_hours"][i] = per_day(arrival_day[waited], waited_until - hours[waited])
-        daily["queue"][i] = np.cumsum(daily["waited"][i]) - np.cumsum(
-            per_day(day_of(bed_hour[from_queue]))
-        )
-        _, peaks = _levels_and_peaks(log_hour, log_level, shift_bounds)
-        shift_peak[i][:, order] = peaks.reshape(days, len(shifts))
-    return ward_result(start, first_path, daily, beds, shift_peak, ward.staffing)
+    inputs = draw_inputs(model, arrivals.astype(np.int64), seed, first_path)
+    return simulate_drawn(inputs, model, arrivals.shape[1])

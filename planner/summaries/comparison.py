@@ -20,6 +20,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from planner.schema import default
 from planner.summaries.monte_carlo import paired_difference
 from planner.summaries.weekly import HEADLINE_WEEKS, WeeklyPaths, any_shortfall, weekly_table
 
@@ -35,10 +36,10 @@ class Costs:
     """Unit costs (any one currency): per open bed-day, per rostered nurse shift, per
     diverted patient, per patient-hour spent waiting for a bed."""
 
-    bed_day: float = 0.0
-    nurse_shift: float = 0.0
-    diverted_patient: float = 0.0
-    waiting_hour: float = 0.0
+    bed_day: float = default("costs.bed_day")
+    nurse_shift: float = default("costs.nurse_shift")
+    diverted_patient: float = default("costs.diverted_patient")
+    waiting_hour: float = default("costs.waiting_hour")
 
 
 @dataclass(frozen=True)

@@ -20,7 +20,6 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-from scipy import stats
 
 PINBALL_LEVELS = tuple(np.round(np.arange(1, 20) * 0.05, 2))
 #: Central interval (percent) -> (lower level, upper level).
@@ -76,6 +75,8 @@ def pit_chi_square(pit: np.ndarray, bins: int = 10) -> tuple[np.ndarray, float, 
     counts = np.histogram(np.clip(pit, 0, 1), bins=bins, range=(0.0, 1.0))[0]
     if counts.sum() == 0:
         return counts, float("nan"), float("nan")
+    from scipy import stats  # here: scipy.stats takes about half a second to import
+
     test = stats.chisquare(counts)
     return counts, float(test.statistic), float(test.pvalue)
 

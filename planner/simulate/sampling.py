@@ -1,0 +1,171 @@
+"""Every random input of the ward simulation, drawn once per path and shared by the engines.
+
+Path ``i`` (counted from 0 over the whole run) has its own child of the run's ward
+``SeedSequence``: ``SeedSequence(entropy, spawn_key=(*spawn_key, i))``, the ``i``-th child that
+``spawn`` would give, so a path's numbers depend only on the seed and its number, never on
+chunks, processes or the engine. The child seeds one ``PCG64`` generator whose output is read
+in three streams, each starting at a fixed position (``advance``), so that a plan with more or
+fewer admissions changes only what it must (common random numbers across plans):
+
+* position 0: two uniforms per emergency admission, in day order: the hour of the day (the
+  hour-of-day profile inverted, as ``Generator.choice`` with probabilities does) and the time
+  within the hour;
+* position ``STREAM_SPACING``: one uniform per patient on the ward at the start, for the
+  remaining stay given the time already spent;
+* position ``2 x STREAM_SPACING``: the stays of new patients, the k-th in order of arrival
+  time from the k-th draw, so patient k of a path keeps its stay when a plan changes beds or
+  the rota.
+
+Uniforms are ``Generator.random`` doubles in [0, 1), written straight into the block's arrays;
+stays and remaining stays invert the survival function at 1 - u, in (0, 1]. Stay distributions
+that map one uniform to one stay (``StayDistribution.inverse_transform``) are transformed for
+the whole block at once; the others (gamma) draw from a generator on the stays' stream, path
+by path. Arrival times are made by a compiled loop (:mod:`planner.simulate.compiled`).
+
+The block's arrays are flat: path ``i``'s patients are entries ``offsets[i]:offsets[i + 1]``.
+Both engines read :class:`DrawnInputs` and draw nothing themselves.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from planner.simulate.compiled import compiled
+
+if TYPE_CHECKING:
+    from planner.simulate.model import WardModel
+
+#: Outputs of a path's generator between the starts of its streams (far more than any path
+#: draws).
+STREAM_SPACING = 2**48
+#: Buckets of the table that gives the hour of the day for a uniform in one read.
+HOUR_BUCKETS = 1024
+
+
+@dataclass(frozen=True, eq=False)
+class DrawnInputs:
+    """The random inputs of a block of paths ``first_path, first_path + 1, ...``.
+
+    ``offsets``: (paths + 1,) path ``i``'s new patients are entries ``offsets[i]`` to
+    ``offsets[i + 1]`` of ``arrival_hours`` (hours since 00:00 of the first day, increasing
+    within a path) and ``stay_days`` (their stays, days > 0, in the same order);
+    ``remaining_days``: (paths, inpatients) remaining stays of the patients on the ward at the
+    start (days > 0), in the model's order."""
+
+    first_path: int
+    offsets: np.ndarray
+    arrival_hours: np.ndarray
+    stay_days: np.ndarray
+    remaining_days: np.ndarray
+
+    @property
+    def paths(self) -> int:
+        return self.offsets.size - 1
+
+    def path(self, i: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Arrival hours, stays (days) and remaining stays (days) of the block's path ``i``."""
+        lo, hi = self.offsets[i], self.offsets[i + 1]
+        return self.arrival_hours[lo:hi], self.stay_days[lo:hi], self.remaining_days[i]
+
+
+def path_seed(seed: int | np.random.SeedSequence, path: int) -> np.random.SeedSequence:
+    """The child ``SeedSequence`` of path number ``path``."""
+    base = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)
+    return np.random.SeedSequence(base.entropy, spawn_key=(*base.spawn_key, path))
+
+
+@compiled
+def _arrival_hours(pairs, counts, cdf, table, last_moment, out):  # pragma: no cover - compiled
+    """Arrival hours of a block, path after path, day after day: the t-th admission of day d
+    at 24 d + (the number of ``cdf`` entries at or below u) + w, with u and w its pair of
+    uniforms, kept below 24 (d + 1); each day's times sorted in place. ``table``: that number
+    for every u of a bucket of width 1 / ``table.size``, or -1 where it changes inside."""
+    k = 0
+    for i in range(counts.shape[0]):
+        for d in range(counts.shape[1]):
+            start = k
+            for _ in range(counts[i, d]):
+                u = pairs[2 * k]
+                w = pairs[2 * k + 1]
+                low = table[int(u * table.size)]
+                if low < 0:  # searchsorted(cdf, u, "right")
+                    low, high = 0, cdf.size
+                    while low < high:
+                        middle = (low + high) // 2
+                        if cdf[middle] <= u:
+                            low = middle + 1
+                        else:
+                            high = middle
+                t = min(24.0 * d + low + w, last_moment[d])
+                m = k
+                while m > start and out[m - 1] > t:
+                    out[m] = out[m - 1]
+                    m -= 1
+                out[m] = t
+                k += 1
+
+
+def cumulative_profile(profile: np.ndarray) -> np.ndarray:
+    """The cumulative hour-of-day shares, the last exactly 1."""
+    cdf = np.cumsum(profile / profile.sum())
+    cdf /= cdf[-1]
+    return cdf
+
+
+def arrival_hours(pairs: np.ndarray, counts: np.ndarray, profile: np.ndarray) -> np.ndarray:
+    """Arrival hours of the paths of ``counts`` (paths x days) from their pairs of uniforms
+    ``pairs`` (path after path, day after day), sorted within each path."""
+    counts = np.ascontiguousarray(counts, dtype=np.int64)
+    days = counts.shape[1]
+    last_moment = np.nextafter((np.arange(days) + 1) * 24.0, 0)
+    cdf = cumulative_profile(profile)
+    edges = np.arange(HOUR_BUCKETS + 1) / HOUR_BUCKETS
+    first = np.searchsorted(cdf, edges[:-1], "right")
+    last = np.searchsorted(cdf, np.nextafter(edges[1:], 0), "right")
+    table = np.where(first == last, first, -1)
+    out = np.empty(int(counts.sum()))
+    _arrival_hours(pairs, counts, cdf, table, last_moment, out)
+    return out
+
+
+def draw_inputs(
+    model: WardModel, counts: np.ndarray, seed: int | np.random.SeedSequence, first_path: int = 0
+) -> DrawnInputs:
+    """Draw the random inputs of the paths of ``counts`` (paths x days emergency admissions),
+    path ``first_path + i`` from its own stream (see the module docstring)."""
+    counts = np.asarray(counts, dtype=np.int64)
+    paths = counts.shape[0]
+    offsets = np.zeros(paths + 1, dtype=np.int64)
+    np.cumsum(counts.sum(axis=1), out=offsets[1:])
+    inpatients = model.inpatients_elapsed.size
+    stays = model.stays
+    pairs = np.empty(2 * offsets[-1])
+    remaining_u = np.empty((paths, inpatients))
+    stay_u = np.empty(offsets[-1])
+    base = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)
+    entropy, key = base.entropy, base.spawn_key
+    by_uniforms = stays.inverse_transform
+    for i, (lo, hi) in enumerate(zip(offsets[:-1].tolist(), offsets[1:].tolist(), strict=True)):
+        bits = np.random.PCG64(np.random.SeedSequence(entropy, spawn_key=(*key, first_path + i)))
+        draw = np.random.Generator(bits)
+        draw.random(out=pairs[2 * lo : 2 * hi])
+        bits.advance(STREAM_SPACING - 2 * (hi - lo))
+        draw.random(out=remaining_u[i])
+        bits.advance(STREAM_SPACING - inpatients)
+        if by_uniforms:
+            draw.random(out=stay_u[lo:hi])
+        else:
+            stay_u[lo:hi] = stays.sample(draw, hi - lo)
+    stay_days = stays.from_uniforms(1.0 - stay_u) if by_uniforms else stay_u
+    elapsed = np.tile(model.inpatients_elapsed, paths)
+    remaining = stays.remaining_from_uniforms(1.0 - remaining_u.ravel(), elapsed)
+    return DrawnInputs(
+        first_path=first_path,
+        offsets=offsets,
+        arrival_hours=arrival_hours(pairs, counts, model.hour_profile),
+        stay_days=stay_days,
+        remaining_days=remaining.reshape(paths, inpatients),
+    )
