@@ -217,25 +217,25 @@ def phases(paths: int = 2048) -> list[tuple[str, float]]:
         return value
 
     def seeds_and_draws():
-        raw = np.empty(2 * counts.sum(), dtype=np.uint64)
+        pairs = np.empty(2 * counts.sum())
+        stay_u = np.empty(counts.sum())
+        remaining_u = np.empty((paths, model.inpatients_elapsed.size))
         offsets = np.concatenate([[0], np.cumsum(counts.sum(axis=1))])
         for i in range(paths):
+            lo, hi = offsets[i], offsets[i + 1]
             bits = np.random.PCG64(sampling.path_seed(SEED, i))
-            raw[2 * offsets[i] : 2 * offsets[i + 1]] = bits.random_raw(
-                2 * (offsets[i + 1] - offsets[i])
-            )
+            draw = np.random.Generator(bits)
+            draw.random(out=pairs[2 * lo : 2 * hi])
             bits.advance(sampling.STREAM_SPACING)
-            bits.random_raw(model.inpatients_elapsed.size)
+            draw.random(out=remaining_u[i])
             bits.advance(sampling.STREAM_SPACING)
-            bits.random_raw(offsets[i + 1] - offsets[i])
-        return raw
+            draw.random(out=stay_u[lo:hi])
+        return pairs, stay_u
 
     for _ in range(3):
-        raw = step("seeds and raw draws", seeds_and_draws)
-        step("arrival hours", sampling.arrival_hours, raw, counts, model.hour_profile)
-        step(
-            "stays from uniforms", model.stays.from_uniforms, sampling.uniforms(raw[: counts.sum()])
-        )
+        pairs, stay_u = step("seeds and uniforms", seeds_and_draws)
+        step("arrival hours", sampling.arrival_hours, pairs, counts, model.hour_profile)
+        step("stays from uniforms", model.stays.from_uniforms, 1.0 - stay_u)
         inputs = sampling.draw_inputs(model, counts, SEED)
         step("simulation and records", fast.simulate_drawn, inputs, model, days)
     patients = int(counts.sum())

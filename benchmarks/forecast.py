@@ -1,4 +1,5 @@
-"""Forecast benchmark rows: fit and path generation on 3 years of daily history, H = 91.
+"""Forecast benchmark rows: fit and path generation on 3 years of daily history, H = 91, and
+the direct strategy's regressions fitted one by one against solved together.
 
 The reference in the same run is one plain statsmodels ``AutoReg`` fit and recursive point
 forecast of the same order on the same rows, so the ratios say what the order search,
@@ -13,7 +14,8 @@ import numpy as np
 import pandas as pd
 from statsmodels.tsa.ar_model import AutoReg
 
-from planner.forecast import ForecastSettings, forecast_admissions
+from planner.forecast.pipeline import forecast_admissions
+from planner.forecast.settings import ForecastSettings
 
 HORIZON = 91
 
@@ -59,4 +61,34 @@ def rows(path_counts=(1_000, 10_000)) -> list[tuple[str, float, str, float]]:
             out.append(
                 (f"forecast {strategy}, {paths} paths", seconds, "AutoReg", seconds / reference)
             )
+    return out
+
+
+def direct_rows(orders=(2, 14, 28)) -> list[tuple[str, float, float]]:
+    """(case, seconds, ratio) rows: the direct strategy's 91 regressions on 3 years with the
+    calendar terms, fitted one by one with ``fit_ar`` (the reference, as before) and solved
+    together (``direct_regressions``, what the forecast and backtest use)."""
+    from planner.forecast.ar import fit_ar
+    from planner.forecast.deterministic import terms_for_history
+    from planner.forecast.direct_fit import direct_regressions
+
+    series = history()
+    dates = pd.DatetimeIndex(series.index)
+    terms = terms_for_history(ForecastSettings(), dates)
+    deterministic = terms.in_sample(dates).to_numpy()
+    values = series.to_numpy(float)
+    out = []
+    for order in orders:
+        reference = _seconds(
+            lambda o=order: [
+                fit_ar(values, o, deterministic, horizon=h, hold_back=o, engine="numpy")
+                for h in range(1, HORIZON + 1)
+            ],
+            repeat=5,
+        )
+        joint = _seconds(
+            lambda o=order: direct_regressions(values, o, HORIZON, deterministic), repeat=5
+        )
+        out.append((f"order {order}: one fit_ar per horizon (reference)", reference, 1.0))
+        out.append((f"order {order}: solved together", joint, joint / reference))
     return out

@@ -32,7 +32,8 @@ def main() -> None:
     parser.add_argument("--paths", type=int, default=None)
     arguments = parser.parse_args()
     if not arguments.cached:
-        os.environ["PLANNER_CACHE"] = tempfile.mkdtemp(prefix="planner-cache-")
+        empty = tempfile.TemporaryDirectory(prefix="planner-cache-")
+        os.environ["PLANNER_CACHE"] = empty.name
     seconds: dict[str, float] = {}
     clock = CLOCK
 
@@ -105,6 +106,8 @@ def main() -> None:
             write_run_files(run, written, hindcast)
         lap("charts and files")
     seconds["files"] = seconds.pop("charts and files") - seconds["charts"]
+    if not arguments.cached:
+        empty.cleanup()
     gc.freeze()
     print(json.dumps({key: round(value, 4) for key, value in seconds.items()}))
 

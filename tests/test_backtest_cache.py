@@ -13,12 +13,11 @@ import pytest
 from click.testing import CliRunner
 
 from planner.cli import cli
-from planner.forecast import ForecastSettings, forecast_admissions, run_backtest
 from planner.forecast import backtest_cache as cache
 from planner.forecast.backtest import BacktestInputs
 from planner.forecast.deterministic import terms_for_history
-from planner.forecast.pipeline import observed_columns
-from planner.forecast.settings import DemandAdjustment
+from planner.forecast.pipeline import forecast_admissions, observed_columns, run_backtest
+from planner.forecast.settings import DemandAdjustment, ForecastSettings
 from planner.report.html import CACHED_BACKTEST
 
 QUICK = ForecastSettings(max_lag=7, backtest_origins=3, backtest_paths=40)

@@ -5,8 +5,8 @@ import pandas as pd
 import pytest
 
 from planner.errors import PlannerError
-from planner.forecast import ForecastSettings, forecast_admissions, run_backtest
-from planner.forecast.settings import DemandAdjustment
+from planner.forecast.pipeline import forecast_admissions, run_backtest
+from planner.forecast.settings import DemandAdjustment, ForecastSettings
 
 HORIZON = 91
 QUANTILE_COLUMNS = ["q05", "q10", "q25", "q50", "q75", "q90", "q95"]

@@ -170,7 +170,7 @@ FAST = {"max_lag": 7, "backtest_origins": 3, "backtest_paths": 10, "annual": Fal
 def test_days_needed_is_enough_for_the_forecast(settings, expected):
     """The rule is checked against the forecast engine: a history of exactly the days asked
     for forecasts without error or warning; one day fewer is refused naming the file."""
-    from planner.forecast import forecast_admissions
+    from planner.forecast.pipeline import forecast_admissions
     from planner.forecast.settings import ForecastSettings
 
     forecast = ForecastSettings(**(FAST | settings))

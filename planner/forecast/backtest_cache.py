@@ -1,5 +1,5 @@
 """A cache on disk of backtest results, so that a repeated run, or plans compared on the same
-history, do not redo the rolling-origin backtest (about half a second on the demo).
+history, do not redo the rolling-origin backtest (about a quarter of a second on the demo).
 
 An entry is keyed by a SHA-256 digest of everything the backtest reads
 (:func:`backtest_key`): the admissions history's values and dates (its content, not the
@@ -22,6 +22,7 @@ error, and a cache folder that cannot be written is silently not used. At most
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import os
 import tempfile
@@ -48,12 +49,19 @@ def cache_folder() -> Path | None:
     chosen = os.environ.get(ENVIRONMENT_VARIABLE)
     if chosen is not None:
         return Path(chosen).expanduser() if chosen.strip() else None
-    base = os.environ.get("XDG_CACHE_HOME") or str(Path.home() / ".cache")
+    base = os.environ.get("XDG_CACHE_HOME")
+    if not base:
+        try:
+            base = str(Path.home() / ".cache")
+        except (KeyError, RuntimeError):  # no home folder known: no cache
+            return None
     return Path(base).expanduser() / "planner"
 
 
+@functools.cache
 def source_digest() -> str:
-    """SHA-256 of the forecast package's source files (empty when they cannot be read)."""
+    """SHA-256 of the forecast package's source files (empty when they cannot be read); read
+    once per process."""
     digest = hashlib.sha256()
     try:
         for path in sorted(Path(__file__).resolve().parent.glob("*.py")):

@@ -10,17 +10,22 @@ their pieces, and are built without H products of the whole design:
 
 * ``L_h'L_h`` and ``D_h'D_h``: the Gram matrix of the fewest rows (h = H) once, then one
   outer product added per horizon;
-* ``D_h'L_h``: one small product per horizon (the two blocks are paired at a shift of h-1);
+* ``D_h'L_h``: one small product per horizon, in one batched call (the two blocks are paired
+  at a shift of h-1, read through a strided view of ``D`` without copying it);
 * ``X_h'y_h`` and, in the refinement, ``X_h'r_h``: two products of ``D`` and ``L`` with a
-  matrix whose column ``h`` holds the horizon's targets (residuals) at their rows.
+  matrix holding each horizon's targets (residuals) in one row, at their days.
 
 They are solved batched, then refined once (``b += G^-1 X'(y - X b)``) as
-:func:`planner.forecast.ar.least_squares` does, with the same safeguard: a horizon whose normal
-equations are not positive definite, or whose refinement moves its coefficients by more than
-1e-10 of their size, is fitted alone by :func:`~planner.forecast.ar.fit_ar` (the SVD solution
-for singular or ill-conditioned designs). Coefficients and residuals agree with H separate
-:func:`~planner.forecast.ar.fit_ar` fits within rounding (about 1e-15 relative on the demo);
-it is about ten times faster for the demo's 91 horizons (``benchmarks/forecast.py``).
+:func:`planner.forecast.ar.least_squares` does, with the same safeguard: a horizon whose
+refinement moves its coefficients by more than 1e-10 of their size is fitted alone by
+:func:`~planner.forecast.ar.fit_ar` (the SVD solution for ill-conditioned designs), and every
+horizon is when the normal equations of one are not positive definite (a singular design).
+
+Coefficients and residuals agree with H separate :func:`~planner.forecast.ar.fit_ar` fits
+within rounding (about 1e-15 relative on the demo), in about a third of their time at 91
+horizons (``benchmarks/forecast.py``). The sums run in another order than theirs, so the
+last digits may differ; the forecast and backtest CSVs, made of whole admissions, are
+unchanged.
 """
 
 from __future__ import annotations

@@ -84,7 +84,7 @@ def model_paths(
             names,
             settings.criterion,
             settings.order,
-            "numpy",
+            engine="numpy",
         )
     if strategy == "recursive":
         point = recursive_point(one_step, values, future_deterministic)

@@ -107,8 +107,8 @@ def forecast_step(scenario: Scenario, history: WardHistory, paths: int, seed: in
     through them). The backtest, when the settings ask for one, is read from the backtest
     cache (:mod:`planner.forecast.backtest_cache`) when the same history and settings were
     backtested before."""
-    from planner.forecast import forecast_admissions
     from planner.forecast.backtest_cache import cache_folder
+    from planner.forecast.pipeline import forecast_admissions
 
     rng = np.random.default_rng(Streams.from_seed(seed).forecast)
     return forecast_admissions(
@@ -124,8 +124,8 @@ def forecast_step(scenario: Scenario, history: WardHistory, paths: int, seed: in
 
 def backtest_step(scenario: Scenario, history: WardHistory, paths: int, seed: int):
     """Rolling-origin backtest of the forecast strategies over the scenario's horizon."""
-    from planner.forecast import run_backtest
     from planner.forecast.backtest_cache import cache_folder
+    from planner.forecast.pipeline import run_backtest
 
     rng = np.random.default_rng(Streams.from_seed(seed).forecast)
     return run_backtest(
