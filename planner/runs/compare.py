@@ -50,19 +50,15 @@ def _run_one(file: Path, options: RunOptions) -> RunResult:
 
 
 def run_all(files: list[Path], options: RunOptions, progress=None) -> tuple[RunResult, ...]:
-    """Run every scenario with common random numbers (the first scenario's paths and seed
-    unless ``options`` gives them), reusing forecasts and fitted stays where the history and
-    settings agree; ``progress(label)`` gives the progress callback of each plan. With a
-    scheduler in ``options``, each scenario runs on a dask worker (the forecast is then made
-    on each worker, with the same result)."""
+    """Run every scenario with common random numbers (the first scenario's paths, seed and
+    engine unless ``options`` gives them: every plan runs on one engine), reusing forecasts
+    and fitted stays where the history and settings agree; ``progress(label)`` gives the
+    progress callback of each plan. With a scheduler in ``options``, each scenario runs on a
+    dask worker (the forecast is then made on each worker, with the same result)."""
     scenarios = [load_scenario(file) for file in files]
     _check_alike(scenarios)
     first = scenarios[0]
-    options = replace(
-        options,
-        paths=first.paths if options.paths is None else options.paths,
-        seed=first.seed if options.seed is None else options.seed,
-    )
+    options = options.with_defaults(first.paths, first.seed, first.engine)
     histories = [load_history(scenario) for scenario in scenarios]  # bad input first
     if options.scheduler is not None:
         from planner.simulate.distributed import map_chunks

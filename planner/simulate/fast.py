@@ -31,6 +31,10 @@ from planner.simulate.ward import beds_open_by_day, check_arrivals
 if TYPE_CHECKING:
     from planner.simulate.model import WardModel
 
+#: Most new patients whose random inputs are held at once: a chunk of paths is drawn and
+#: simulated in blocks of about this many patients (about 50 MB of inputs), so memory does not
+#: grow with the chunk and the inputs stay close to the processor's cache.
+BLOCK_PATIENTS = 1_000_000
 #: Rows of the integer daily records, in this order (wait hours are kept apart, as floats).
 COUNTED = ("census", "peak_occupancy", "admissions", "bed_admissions", "discharges",
            "waited", "diverted", "queue")  # fmt: skip
@@ -185,26 +189,44 @@ def _simulate_block(inputs, ward, records):  # pragma: no cover - compiled
             wait_hours[p, queue_day[q]] += queue_wait[q]
 
 
-def simulate_drawn(inputs: DrawnInputs, model: WardModel, days: int) -> WardResult:
-    """Simulate ``model`` over ``days`` days for the paths whose random inputs are
-    ``inputs``."""
+def _records(inputs: DrawnInputs, model: WardModel, beds: np.ndarray, out, at: int) -> None:
+    """Simulate the paths of ``inputs`` into rows ``at``, ``at + 1``, ... of the record arrays
+    ``out`` (counts, wait hours, shift peaks in the order of the shifts' start hours)."""
     ward = model.settings
-    beds = beds_open_by_day(ward, model.start, days).astype(np.int64)
-    starts = np.array([shift.start_hour for shift in ward.staffing.shifts], dtype=float)
-    order = np.argsort(starts, kind="stable")
-    paths = inputs.paths
-    counts = np.zeros((paths, days, len(COUNTED)), dtype=np.int32)
-    wait_hours = np.zeros((paths, days))
-    peaks = np.zeros((paths, days, starts.size), dtype=np.int32)
+    starts = np.sort([shift.start_hour for shift in ward.staffing.shifts])
+    rows = slice(at, at + inputs.paths)
     _simulate_block(
         (inputs.offsets, inputs.arrival_hours, inputs.stay_days, inputs.remaining_days),
-        (beds, starts[order], ward.policy == "wait"),
-        (counts, wait_hours, peaks),
+        (beds, np.asarray(starts, dtype=float), ward.policy == "wait"),
+        tuple(array[rows] for array in out),
     )
+
+
+def _result(model: WardModel, first_path: int, beds: np.ndarray, out) -> WardResult:
+    counts, wait_hours, peaks = out
+    shifts = model.settings.staffing.shifts
+    order = np.argsort([shift.start_hour for shift in shifts], kind="stable")
     shift_peak = np.empty_like(peaks)
     shift_peak[:, :, order] = peaks
     daily = {name: counts[:, :, i] for i, name in enumerate(COUNTED)} | {"wait_hours": wait_hours}
-    return ward_result(model.start, inputs.first_path, daily, beds, shift_peak, ward.staffing)
+    return ward_result(model.start, first_path, daily, beds, shift_peak, model.settings.staffing)
+
+
+def _record_arrays(paths: int, days: int, shifts: int):
+    return (
+        np.zeros((paths, days, len(COUNTED)), dtype=np.int32),
+        np.zeros((paths, days)),
+        np.zeros((paths, days, shifts), dtype=np.int32),
+    )
+
+
+def simulate_drawn(inputs: DrawnInputs, model: WardModel, days: int) -> WardResult:
+    """Simulate ``model`` over ``days`` days for the paths whose random inputs are
+    ``inputs``."""
+    beds = beds_open_by_day(model.settings, model.start, days).astype(np.int64)
+    out = _record_arrays(inputs.paths, days, len(model.settings.staffing.shifts))
+    _records(inputs, model, beds, out, 0)
+    return _result(model, inputs.first_path, beds, out)
 
 
 def simulate_ward_fast(
@@ -215,8 +237,16 @@ def simulate_ward_fast(
     first_path: int = 0,
 ) -> WardResult:
     """Simulate ``model`` for every path of daily ``arrivals`` (paths x days, patients): the
-    arguments and result of :func:`planner.simulate.ward.simulate_ward`."""
+    arguments and result of :func:`planner.simulate.ward.simulate_ward`. The paths are drawn
+    and simulated in blocks of about ``BLOCK_PATIENTS`` new patients."""
     arrivals = np.asarray(arrivals)
     check_arrivals(arrivals)
-    inputs = draw_inputs(model, arrivals, seed, first_path)
-    return simulate_drawn(inputs, model, arrivals.shape[1])
+    paths, days = arrivals.shape
+    beds = beds_open_by_day(model.settings, model.start, days).astype(np.int64)
+    out = _record_arrays(paths, days, len(model.settings.staffing.shifts))
+    per_path = max(int(arrivals.sum(axis=1).max(initial=0)), 1)
+    block = max(BLOCK_PATIENTS // per_path, 1)
+    for lo in range(0, paths, block):
+        inputs = draw_inputs(model, arrivals[lo : lo + block], seed, first_path + lo)
+        _records(inputs, model, beds, out, lo)
+    return _result(model, first_path, beds, out)
