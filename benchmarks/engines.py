@@ -217,24 +217,23 @@ def phases(paths: int = 2048) -> list[tuple[str, float]]:
         return value
 
     def seeds_and_draws():
-        pairs = np.empty(2 * counts.sum())
-        stay_u = np.empty(counts.sum())
-        remaining_u = np.empty((paths, model.inpatients_elapsed.size))
+        inpatients = model.inpatients_elapsed.size
         offsets = np.concatenate([[0], np.cumsum(counts.sum(axis=1))])
+        starts = np.arange(paths + 1) * inpatients + 2 * offsets
+        first_stream = np.empty(starts[-1])
+        stay_u = np.empty(counts.sum())
         for i in range(paths):
-            lo, hi = offsets[i], offsets[i + 1]
             bits = np.random.PCG64(sampling.path_seed(SEED, i))
             draw = np.random.Generator(bits)
-            draw.random(out=pairs[2 * lo : 2 * hi])
+            draw.random(out=first_stream[starts[i] : starts[i + 1]])
             bits.advance(sampling.STREAM_SPACING)
-            draw.random(out=remaining_u[i])
-            bits.advance(sampling.STREAM_SPACING)
-            draw.random(out=stay_u[lo:hi])
-        return pairs, stay_u
+            draw.random(out=stay_u[offsets[i] : offsets[i + 1]])
+        return first_stream, stay_u
 
     for _ in range(3):
-        pairs, stay_u = step("seeds and uniforms", seeds_and_draws)
-        step("arrival hours", sampling.arrival_hours, pairs, counts, model.hour_profile)
+        first_stream, stay_u = step("seeds and uniforms", seeds_and_draws)
+        step("arrival hours", sampling.arrival_hours, first_stream, counts, model.hour_profile,
+             model.inpatients_elapsed.size)  # fmt: skip
         step("stays from uniforms", model.stays.from_uniforms, 1.0 - stay_u)
         inputs = sampling.draw_inputs(model, counts, SEED)
         step("simulation and records", fast.simulate_drawn, inputs, model, days)

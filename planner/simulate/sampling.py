@@ -4,17 +4,16 @@ Path ``i`` (counted from 0 over the whole run) has its own child of the run's wa
 ``SeedSequence``: ``SeedSequence(entropy, spawn_key=(*spawn_key, i))``, the ``i``-th child that
 ``spawn`` would give, so a path's numbers depend only on the seed and its number, never on
 chunks, processes or the engine. The child seeds one ``PCG64`` generator whose output is read
-in three streams, each starting at a fixed position (``advance``), so that a plan with more or
+in two streams, each starting at a fixed position (``advance``), so that a plan with more or
 fewer admissions changes only what it must (common random numbers across plans):
 
-* position 0: two uniforms per emergency admission, in day order: the hour of the day (the
-  hour-of-day profile inverted, as ``Generator.choice`` with probabilities does) and the time
-  within the hour;
-* position ``STREAM_SPACING``: one uniform per patient on the ward at the start, for the
-  remaining stay given the time already spent;
-* position ``2 x STREAM_SPACING``: the stays of new patients, the k-th in order of arrival
-  time from the k-th draw, so patient k of a path keeps its stay when a plan changes beds or
-  the rota.
+* position 0: one uniform per patient on the ward at the start (their number is the same in
+  every plan), for the remaining stay given the time already spent; then two uniforms per
+  emergency admission, in day order: the hour of the day (the hour-of-day profile inverted,
+  as ``Generator.choice`` with probabilities does) and the time within the hour;
+* position ``STREAM_SPACING``: the stays of new patients, the k-th in order of arrival time
+  from the k-th draw, so patient k of a path keeps its stay when a plan changes beds or the
+  rota.
 
 Uniforms are ``Generator.random`` doubles in [0, 1), written straight into the block's arrays;
 stays and remaining stays invert the survival function at 1 - u, in (0, 1]. Stay distributions
@@ -78,18 +77,21 @@ def path_seed(seed: int | np.random.SeedSequence, path: int) -> np.random.SeedSe
 
 
 @compiled
-def _arrival_hours(pairs, counts, cdf, table, last_moment, out):  # pragma: no cover - compiled
+def _arrival_hours(pairs, skip, counts, cdf, table, last_moment, out):  # pragma: no cover
     """Arrival hours of a block, path after path, day after day: the t-th admission of day d
     at 24 d + (the number of ``cdf`` entries at or below u) + w, with u and w its pair of
-    uniforms, kept below 24 (d + 1); each day's times sorted in place. ``table``: that number
-    for every u of a bucket of width 1 / ``table.size``, or -1 where it changes inside."""
+    uniforms, kept below 24 (d + 1); each day's times sorted in place. ``pairs``: each path's
+    ``skip`` uniforms for other uses, then its pairs. ``table``: the number of ``cdf``
+    entries at or below every u of a bucket of width 1 / ``table.size``, or -1 where it
+    changes inside the bucket."""
     k = 0
     for i in range(counts.shape[0]):
+        first = (i + 1) * skip
         for d in range(counts.shape[1]):
             start = k
             for _ in range(counts[i, d]):
-                u = pairs[2 * k]
-                w = pairs[2 * k + 1]
+                u = pairs[first + 2 * k]
+                w = pairs[first + 2 * k + 1]
                 low = table[int(u * table.size)]
                 if low < 0:  # searchsorted(cdf, u, "right")
                     low, high = 0, cdf.size
@@ -115,9 +117,12 @@ def cumulative_profile(profile: np.ndarray) -> np.ndarray:
     return cdf
 
 
-def arrival_hours(pairs: np.ndarray, counts: np.ndarray, profile: np.ndarray) -> np.ndarray:
+def arrival_hours(
+    pairs: np.ndarray, counts: np.ndarray, profile: np.ndarray, skip: int = 0
+) -> np.ndarray:
     """Arrival hours of the paths of ``counts`` (paths x days) from their pairs of uniforms
-    ``pairs`` (path after path, day after day), sorted within each path."""
+    ``pairs`` (path after path, day after day, each path's pairs after ``skip`` uniforms for
+    other uses), sorted within each path."""
     counts = np.ascontiguousarray(counts, dtype=np.int64)
     days = counts.shape[1]
     last_moment = np.nextafter((np.arange(days) + 1) * 24.0, 0)
@@ -127,7 +132,7 @@ def arrival_hours(pairs: np.ndarray, counts: np.ndarray, profile: np.ndarray) ->
     last = np.searchsorted(cdf, np.nextafter(edges[1:], 0), "right")
     table = np.where(first == last, first, -1)
     out = np.empty(int(counts.sum()))
-    _arrival_hours(pairs, counts, cdf, table, last_moment, out)
+    _arrival_hours(pairs, skip, counts, cdf, table, last_moment, out)
     return out
 
 
@@ -142,30 +147,32 @@ def draw_inputs(
     np.cumsum(counts.sum(axis=1), out=offsets[1:])
     inpatients = model.inpatients_elapsed.size
     stays = model.stays
-    pairs = np.empty(2 * offsets[-1])
-    remaining_u = np.empty((paths, inpatients))
+    # Path i's first stream: its inpatients' uniforms, then its pairs, from here:
+    starts = np.arange(paths + 1) * inpatients + 2 * offsets
+    first_stream = np.empty(starts[-1])
     stay_u = np.empty(offsets[-1])
     base = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)
     entropy, key = base.entropy, base.spawn_key
     by_uniforms = stays.inverse_transform
-    for i, (lo, hi) in enumerate(zip(offsets[:-1].tolist(), offsets[1:].tolist(), strict=True)):
+    bounds = zip(starts[:-1].tolist(), starts[1:].tolist(), offsets[:-1].tolist(),
+                 offsets[1:].tolist(), strict=True)  # fmt: skip
+    for i, (begin, end, lo, hi) in enumerate(bounds):
         bits = np.random.PCG64(np.random.SeedSequence(entropy, spawn_key=(*key, first_path + i)))
         draw = np.random.Generator(bits)
-        draw.random(out=pairs[2 * lo : 2 * hi])
-        bits.advance(STREAM_SPACING - 2 * (hi - lo))
-        draw.random(out=remaining_u[i])
-        bits.advance(STREAM_SPACING - inpatients)
+        draw.random(out=first_stream[begin:end])
+        bits.advance(STREAM_SPACING - (end - begin))
         if by_uniforms:
             draw.random(out=stay_u[lo:hi])
         else:
             stay_u[lo:hi] = stays.sample(draw, hi - lo)
     stay_days = stays.from_uniforms(1.0 - stay_u) if by_uniforms else stay_u
+    remaining_u = first_stream[starts[:-1, None] + np.arange(inpatients)]
     elapsed = np.tile(model.inpatients_elapsed, paths)
     remaining = stays.remaining_from_uniforms(1.0 - remaining_u.ravel(), elapsed)
     return DrawnInputs(
         first_path=first_path,
         offsets=offsets,
-        arrival_hours=arrival_hours(pairs, counts, model.hour_profile),
+        arrival_hours=arrival_hours(first_stream, counts, model.hour_profile, inpatients),
         stay_days=stay_days,
         remaining_days=remaining.reshape(paths, inpatients),
     )
