@@ -170,6 +170,14 @@ class Lognormal(ParametricStay):
 
         return stats.lognorm(self.sigma, scale=math.exp(self.mu))
 
+    def from_uniforms(self, u: np.ndarray) -> np.ndarray:
+        # P(S > s) = u gives log s = mu + sigma z with Phi(z) = 1 - u, that is z = -ndtri(u):
+        # one inverse normal per stay (the conditional form below costs several).
+        from scipy import special
+
+        z = -special.ndtri(np.asarray(u, dtype=float))
+        return np.maximum(np.exp(self.mu + self.sigma * z), MINIMUM_STAY_DAYS)
+
     def _remaining(self, u: np.ndarray, e: np.ndarray) -> np.ndarray:
         # In log space throughout: log P(S > t) = log_ndtr(-z(t)), inverted by ndtri_exp, so
         # the far tail (P(S > e) below 1e-308) does not underflow.
