@@ -152,12 +152,11 @@ def draw_inputs(
     first_stream = np.empty(starts[-1])
     stay_u = np.empty(offsets[-1])
     base = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)
-    entropy, key = base.entropy, base.spawn_key
     by_uniforms = stays.inverse_transform
     bounds = zip(starts[:-1].tolist(), starts[1:].tolist(), offsets[:-1].tolist(),
                  offsets[1:].tolist(), strict=True)  # fmt: skip
     for i, (begin, end, lo, hi) in enumerate(bounds):
-        bits = np.random.PCG64(np.random.SeedSequence(entropy, spawn_key=(*key, first_path + i)))
+        bits = np.random.PCG64(path_seed(base, first_path + i))
         draw = np.random.Generator(bits)
         draw.random(out=first_stream[begin:end])
         bits.advance(STREAM_SPACING - (end - begin))
