@@ -17,7 +17,13 @@ from pathlib import Path
 from typing import Any
 
 from planner.errors import PlannerError
-from planner.forecast.settings import DemandAdjustment, ForecastSettings, Surge
+from planner.forecast.settings import (
+    LEAST_ERROR_PATHS,
+    DemandAdjustment,
+    ForecastSettings,
+    LevelChange,
+    Surge,
+)
 from planner.records.files import HistoryFormat
 from planner.schema import TABLES, TOP
 from planner.schema_checks import validate
@@ -205,7 +211,38 @@ def _forecast(document: dict[str, Any], where: str) -> ForecastSettings:
     demand = DemandAdjustment(float(_table(document, "demand")["growth"]), tuple(surges))
     fields = {_FORECAST_FIELDS.get(key, key): value for key, value in values.items()}
     fields["holiday_dates"] = tuple(fields["holiday_dates"])
-    return ForecastSettings(**fields, demand=demand)
+    direct_backtest = (fields["strategy"], fields["residuals"]) == ("direct", "backtest")
+    if direct_backtest and fields["backtest_origins"] < LEAST_ERROR_PATHS:
+        raise PlannerError(
+            f'{where}: forecast.backtest_origins: residuals = "backtest" with the direct '
+            f"strategy resamples one error path per origin and needs at least "
+            f"{LEAST_ERROR_PATHS}, got {fields['backtest_origins']}; give more backtest "
+            f"origins (and a longer history if needed)"
+        )
+    if fields["min_lag"] > fields["max_lag"]:
+        raise PlannerError(
+            f"{where}: forecast.min_lag: must be <= forecast.max_lag ({fields['max_lag']}), "
+            f"got {fields['min_lag']}"
+        )
+    return ForecastSettings(**fields, demand=demand, level_changes=_level_changes(document, where))
+
+
+def _level_changes(document: dict[str, Any], where: str) -> tuple[LevelChange, ...]:
+    """The ``[[forecast.level_change]]`` entries, in file order (messages number them so);
+    two on one day are refused.
+    Their dates are checked against the history when it is read
+    (:func:`planner.forecast.level_change.check_level_changes`)."""
+    changes, seen = [], {}
+    for number, item in enumerate(_items(document, "forecast.level_change"), start=1):
+        if item["date"] in seen:
+            raise PlannerError(
+                f"{where}: forecast.level_change[{number}].date: {item['date']} is also the "
+                f"date of forecast.level_change[{seen[item['date']]}]; give one change per day"
+            )
+        seen[item["date"]] = number
+        size = item.get("relative_change")
+        changes.append(LevelChange(item["date"], None if size is None else float(size)))
+    return tuple(changes)
 
 
 def _stay(document: dict[str, Any], where: str) -> StaySettings:

@@ -120,7 +120,23 @@ TABLES = (
                 "backtest.",
                 choices=("recursive", "direct", "auto"),
             ),
-            Key("max_lag", "int", 28, "Largest AR order tried.", "days", minimum=1),
+            Key(
+                "max_lag",
+                "int",
+                28,
+                "Largest AR order tried.",
+                "days",
+                minimum=1,
+            ),
+            Key(
+                "min_lag",
+                "int",
+                1,
+                "Smallest AR order tried; 0 lets the choice fall on calendar terms alone. "
+                "All orders are compared on one common sample.",
+                "days",
+                minimum=0,
+            ),
             Key(
                 "criterion",
                 "str",
@@ -128,7 +144,14 @@ TABLES = (
                 "Information criterion choosing the AR order.",
                 choices=("aic", "bic"),
             ),
-            Key("order", "int", None, "Fixed AR order instead of choosing one.", "days", minimum=1),
+            Key(
+                "order",
+                "int",
+                None,
+                "Fixed AR order instead of choosing one (0 = calendar terms only).",
+                "days",
+                minimum=0,
+            ),
             Key("weekday", "bool", True, "Day-of-week terms."),
             Key(
                 "annual",
@@ -189,6 +212,33 @@ TABLES = (
                 minimum=1,
             ),
         ),
+    ),
+    Table(
+        "forecast.level_change",
+        "Dated changes in the level of admissions (a new service, a changed catchment). "
+        "Inside the history the level after the date is estimated from the days after it, "
+        "and its uncertainty is carried into the paths; after the history the paths are "
+        "multiplied by 1 + relative_change from the date on.",
+        (
+            Key(
+                "date",
+                "date",
+                None,
+                "First day at the new level; inside the history, at least max_lag (or "
+                "order) + the forecast days after its first day.",
+                required=True,
+            ),
+            Key(
+                "relative_change",
+                "float",
+                None,
+                "Expected relative change of the level (0.25 = +25%); required for a date "
+                "after the history, not used inside it.",
+                "fraction",
+                above=-1.0,
+            ),
+        ),
+        many=True,
     ),
     Table(
         "demand",

@@ -87,17 +87,24 @@ def test_fourier_terms_equal_autoreg_with_exog():
 
 @pytest.mark.parametrize("criterion", ["aic", "bic"])
 def test_order_choice_equals_ar_select_order(criterion):
-    # Source: statsmodels ar_select_order (one common sample after max_lag).
+    # Source: statsmodels ar_select_order (orders 0 .. max_lag on one common sample after
+    # max_lag).
     y = simulated_ar3().to_numpy()
     reference = ar_select_order(y, 12, ic=criterion, trend="c")
     ours = select_order(y, 12, criterion=criterion)
     assert reference.ar_lags is not None and max(reference.ar_lags) >= 1
     assert ours.order == max(reference.ar_lags)
-    # The criterion values order by order. ar_select_order counts parameters with OLS's
-    # df_model (regressors minus the constant) + 1, one fewer than AutoReg's df_model + 1 that we
-    # follow, so its values sit a constant (2 for AIC, log(nobs) for BIC) below ours.
-    theirs = {max(lags): value for lags, value in getattr(reference, criterion).items() if lags}
+    # The criterion values order by order, order 0 (the constant alone) included.
+    # ar_select_order counts parameters with OLS's df_model (regressors minus the constant) + 1,
+    # one fewer than AutoReg's df_model + 1 that we follow, so its values sit a constant (2 for
+    # AIC, log(nobs) for BIC) below ours.
+    # (Its key for order 0 is 0, for order p the tuple of lags 1 .. p.)
+    theirs = {
+        lags if lags == 0 else max(lags): value
+        for lags, value in getattr(reference, criterion).items()
+    }
     shift = 2.0 if criterion == "aic" else np.log(ours.table["nobs"].iloc[0])
+    assert list(ours.table["order"]) == list(range(0, 13))
     for order, value in zip(ours.table["order"], ours.table[criterion], strict=True):
         assert value - shift == pytest.approx(theirs[order], rel=1e-9)
 
@@ -137,3 +144,50 @@ def test_least_squares_equals_numpy_lstsq_also_for_singular_and_ill_conditioned_
     for X, tolerance in ((base, 1e-12), (singular, 1e-9), (ill, 1e-9)):
         expected = np.linalg.lstsq(X, y, rcond=None)[0]
         np.testing.assert_allclose(least_squares(X, y), expected, rtol=0, atol=tolerance)
+
+
+def weekday_white_noise(seed: int, n: int = 1000) -> tuple[np.ndarray, np.ndarray]:
+    """Independent N(0, 4.4^2) noise around a weekday pattern (no autoregression), and the
+    calendar design (constant and six weekday dummies); starts on a Monday."""
+    rng = np.random.default_rng(seed)
+    dates = pd.date_range("2023-01-02", periods=n, freq="D")
+    pattern = np.array([22.0, 21.0, 20.0, 20.0, 21.0, 17.0, 16.0])[dates.day_of_week]
+    terms = DeterministicTerms(origin=dates[0], weekday=True)
+    return pattern + rng.normal(0.0, 4.4, n), terms.in_sample(dates).to_numpy()
+
+
+def test_order_zero_is_chosen_for_white_noise_around_a_weekday_pattern():
+    # With no autoregression the true order is 0. AIC overfits now and then: for white noise
+    # its chance of choosing order 0 is about 0.7 in large samples (Shibata 1976, from memory),
+    # 14 of 20 expected, sd 2. Measured: 16 of 20; asked: at least 10 (and at least half).
+    chosen = []
+    for seed in range(20):
+        y, deterministic = weekday_white_noise(seed)
+        chosen.append(select_order(y, 28, deterministic, "aic", min_lag=0).order)
+    assert sum(order == 0 for order in chosen) >= 10, chosen
+    # Without order 0 among the candidates the search cannot choose it.
+    y, deterministic = weekday_white_noise(0)
+    assert select_order(y, 28, deterministic, "aic", min_lag=1).order >= 1
+
+
+def test_order_zero_criteria_equal_statsmodels_ols():
+    # Source: statsmodels OLS(y, X).fit().aic / .bic for the calendar-only design: they count
+    # the k regressors, we count sigma2 too (as AutoReg), so ours are 2 (AIC) and log(nobs)
+    # (BIC) above.
+    y, deterministic = weekday_white_noise(0)
+    selection = select_order(y, 28, deterministic, "aic", min_lag=0)
+    row = selection.table.iloc[0]
+    assert row["order"] == 0 and row["nobs"] == len(y) - 28
+    common = sm.OLS(y[28:], deterministic[28:]).fit()  # the common sample: rows after max_lag
+    assert row["aic"] - 2 == pytest.approx(common.aic, rel=1e-10)
+    assert row["bic"] - np.log(row["nobs"]) == pytest.approx(common.bic, rel=1e-10)
+    fit = fit_ar(y, 0, deterministic, engine="numpy")  # refitted on every day
+    full = sm.OLS(y, deterministic).fit()
+    assert fit.nobs == len(y)
+    assert fit.aic - 2 == pytest.approx(full.aic, rel=1e-10)
+    np.testing.assert_allclose(fit.coefficients, full.params, rtol=1e-10)
+    # Both strategies forecast the calendar regression's prediction.
+    future = deterministic[:35]  # the same weekdays five weeks on
+    np.testing.assert_allclose(recursive_point(fit, y, future), full.predict(future), rtol=1e-10)
+    direct = fit_direct(y, 0, 35, deterministic)
+    assert direct_point(direct, y, future)[0] == pytest.approx(full.predict(future)[0], rel=1e-10)

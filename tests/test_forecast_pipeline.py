@@ -124,10 +124,15 @@ def test_growth_scales_the_mean(history):
 
 @pytest.mark.parametrize(
     "options",
-    [{"residuals": "backtest"}, {"refit": True}, {"strategy": "direct", "residuals": "backtest"}],
+    [
+        {"residuals": "backtest", "backtest_origins": 50, "backtest_every": 3},
+        {"refit": True},
+        # the direct strategy resamples one error path per origin and asks for at least 50
+        {"strategy": "direct", "residuals": "backtest", "backtest_origins": 50},
+    ],
 )
 def test_options_run_and_give_counts(history, options):
-    settings = ForecastSettings(max_lag=14, backtest_origins=20, **options)
+    settings = ForecastSettings(max_lag=14, **options)
     result = forecast_admissions(history, settings, 28, 300, np.random.default_rng(5))
     assert result.paths.shape == (300, 28) and (result.paths >= 0).all()
     assert result.summary.residuals == settings.residuals

@@ -140,7 +140,23 @@ def test_extends_cycle_is_refused(tmp_path):
         ("[forecast]\ncriterion = 'hqic'\n", "forecast.criterion: must be one of aic, bic"),
         ("[forecast]\nresiduals = 'oos'\n", "forecast.residuals: must be one of in_sample"),
         ("[forecast]\nmax_lag = 0\n", "forecast.max_lag: must be >= 1, got 0"),
-        ("[forecast]\norder = 0\n", "forecast.order: must be >= 1, got 0"),
+        ("[forecast]\norder = -1\n", "forecast.order: must be >= 0, got -1"),
+        ("[forecast]\nmin_lag = -1\n", "forecast.min_lag: must be >= 0, got -1"),
+        (
+            "[forecast]\nmax_lag = 7\nmin_lag = 8\n",
+            "forecast.min_lag: must be <= forecast.max_lag (7), got 8",
+        ),
+        ("[[forecast.level_change]]\nrelative_change = 0.1\n", "level_change[1].date: required"),
+        (
+            "[[forecast.level_change]]\ndate = 2026-01-05\nrelative_change = -1.0\n",
+            "forecast.level_change[1].relative_change: must be > -1, got -1.0",
+        ),
+        (
+            "[[forecast.level_change]]\ndate = 2026-01-05\n"
+            "[[forecast.level_change]]\ndate = 2026-01-05\nrelative_change = 0.1\n",
+            "forecast.level_change[2].date: 2026-01-05 is also the date of "
+            "forecast.level_change[1]",
+        ),
         ("[forecast]\nrefit_series = 0\n", "forecast.refit_series: must be >= 1, got 0"),
         ("[forecast]\nfourier_pairs = 0\n", "forecast.fourier_pairs: must be >= 1, got 0"),
         ("[forecast]\nannual = 'yes'\n", 'forecast.annual: must be true, false or "auto"'),

@@ -51,6 +51,8 @@ def forecast(scenario: Path | None, out, overwrite, paths, seed) -> None:
         f"AR order {summary.order} ({summary.criterion.upper()}), strategy "
         f"{summary.strategy}; {len(table)} days from {history.first_day.date()}"
     )
+    if summary.drift is not None:
+        click.echo(summary.drift.message())
     click.echo(f"wrote {target}/forecast.csv and admissions.png")
 
 

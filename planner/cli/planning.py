@@ -68,6 +68,9 @@ def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, schedu
     if backtest is not None and backtest.from_cache:
         click.echo(CACHED_BACKTEST)
     click.echo(terminal_table(result.summary.weekly))
+    drift = result.forecast.summary.drift
+    if drift is not None:
+        click.echo(drift.message())
     click.echo(headline(result))
     click.echo(CAUTION)
     click.echo(f"wrote {target}/report.html")

@@ -10,10 +10,11 @@ deterministic terms first, then ``lag_1 .. lag_p``. With ``nobs`` rows and ``k``
 log-likelihood ``llf = -nobs/2 (log(2 pi sigma2) + 1)``, ``aic = -2 llf + 2 (k + 1)`` and
 ``bic = -2 llf + log(nobs) (k + 1)`` (the ``+ 1`` counts sigma2), as in statsmodels ``AutoReg``.
 
-Order choice (:func:`select_order`) compares ``p = 1 .. max_lag`` on ONE common sample, the rows
-after ``max_lag``, as statsmodels ``ar_select_order`` does, then the chosen order is refitted on
-all its usable rows. (``ar_select_order`` also tries ``p = 0``; we do not, so the two agree
-whenever its choice is at least 1.)
+Order choice (:func:`select_order`) compares ``p = min_lag .. max_lag`` on ONE common sample, the
+rows after ``max_lag``, as statsmodels ``ar_select_order`` does (it tries ``p = 0``, the
+deterministic terms alone, too: ``min_lag = 0``), then the chosen order is refitted on all its
+usable rows (all days for ``p = 0``). Every order is compared on the same rows whatever
+``min_lag``, so the criteria stay comparable.
 
 Two engines give the same numbers (within about 1e-15 relative on the demo): ``"numpy"``
 (:func:`least_squares`, for the forecast and the thousands of fits inside the backtest) and
@@ -177,10 +178,11 @@ def select_order(
     max_lag: int,
     deterministic: np.ndarray | None = None,
     criterion: str = "aic",
+    min_lag: int = 0,
 ) -> OrderSelection:
-    """Choose ``p`` in ``1 .. max_lag`` minimising ``criterion`` ("aic" or "bic"), all orders
-    fitted on the common rows after ``max_lag``. (Both are scenario keys, checked when the
-    scenario is read: :mod:`planner.schema`.)
+    """Choose ``p`` in ``min_lag .. max_lag`` minimising ``criterion`` ("aic" or "bic"), all orders
+    fitted on the common rows after ``max_lag`` (``p = 0``: the deterministic terms alone).
+    (Both are scenario keys, checked when the scenario is read: :mod:`planner.schema`.)
 
     One QR factorisation of the largest design serves every order: the models are nested, so the
     residual sum of squares of the first ``m`` columns is ``SSR_full + sum_{i>=m} (Q'y)_i^2``.
@@ -197,7 +199,7 @@ def select_order(
     tail = np.concatenate([np.cumsum((projection**2)[::-1])[::-1], [0.0]])
     k_det = deterministic.shape[1]
     rows = []
-    for order in range(1, max_lag + 1):
+    for order in range(min_lag, max_lag + 1):
         m = k_det + order
         sigma2, llf, aic, bic = information_criteria(ssr_full + tail[m], nobs, m)
         rows.append((order, aic, bic, nobs))
@@ -214,11 +216,12 @@ def fit_selected(
     criterion: str = "aic",
     order: int | None = None,
     engine: str = "statsmodels",
+    min_lag: int = 0,
 ) -> ArFit:
-    """The one-step model: choose the order (unless ``order`` is given), then refit that order on
-    all its usable rows (``hold_back = order``)."""
+    """The one-step model: choose the order in ``min_lag .. max_lag`` (unless ``order`` is
+    given), then refit that order on all its usable rows (``hold_back = order``)."""
     if order is None:
-        order = select_order(values, max_lag, deterministic, criterion).order
+        order = select_order(values, max_lag, deterministic, criterion, min_lag).order
     return fit_ar(values, order, deterministic, names, engine=engine)
 
 

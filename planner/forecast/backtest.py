@@ -11,7 +11,9 @@ the days that are observed, so late horizon weeks are scored on fewer origins (c
 Origins leaving too little training data for a direct fit (and at least ``max_lag + H + 30``
 days, see :mod:`planner.forecast.requirements`) are skipped.
 The backtest's own paths use in-sample residuals and ignore demand adjustments: it scores the
-model, not the scenario.
+model, not the scenario. A level change inside the history is a step column of every origin
+whose training data reach its date (at least one day at the new level); at earlier origins it
+is left out, the change not yet being in their data, and its stated size is not applied.
 
 MAE and RMSE score the paths' mean; MASE scales each origin's absolute errors by that origin's
 training-data seasonal naive error (m = 7); pinball loss averages the levels 0.05 .. 0.95;
@@ -22,8 +24,9 @@ the scored days: a calibrated model has coverage_80 close to nominal_80, not to 
 
 Out-of-sample residuals for ``residuals="backtest"``: recursive, the one-step errors on every
 day of the window (the fit of the latest origin predicting each day from the observed lags);
-direct, the error paths (actual minus direct point forecast, h = 1 .. H) of the untruncated
-origins.
+direct, the error paths (actual minus direct point forecast, h = 1 .. H) of every origin, those
+whose horizon runs past the end of the history with NaN on the days not observed (the paths
+fill them from other origins: :func:`planner.forecast.bootstrap.direct_paths`).
 """
 
 from __future__ import annotations
@@ -37,6 +40,7 @@ from planner.errors import PlannerError
 from planner.forecast import metrics
 from planner.forecast.ar import design
 from planner.forecast.bootstrap import to_counts
+from planner.forecast.deterministic import step_columns
 from planner.forecast.paths import STRATEGIES, SeriesDesign, model_paths
 from planner.forecast.requirements import origin_days
 from planner.forecast.result import QUANTILE_LEVELS, BacktestResult
@@ -94,6 +98,16 @@ class BacktestInputs:
         deterministic = terms.in_sample(extended)[list(names)].to_numpy()
         return cls(values, pd.DatetimeIndex(dates), names, deterministic, horizon)
 
+    def columns_at(self, origin: int) -> list[int] | None:
+        """Deterministic columns of the fits at ``origin`` (position of its first forecast
+        day): all but the level changes' steps that are zero on every training day; None for
+        all of them."""
+        steps = step_columns(self.names)
+        late = [j for j in steps if not self.deterministic[:origin, j].any()]
+        if not late:
+            return None
+        return [j for j in range(len(self.names)) if j not in late]
+
 
 def backtest_path_count(n_paths: int, settings) -> int:
     """Paths per origin and strategy: the smaller of the run's and ``backtest_paths``."""
@@ -121,7 +135,6 @@ def backtest_inputs(
 ) -> BacktestResult:
     """The backtest of :func:`backtest_arrays` on inputs already built."""
     values, dates, names, horizon = inputs.values, inputs.dates, inputs.names, inputs.horizon
-    deterministic_all = inputs.deterministic
     n = values.shape[0]
     positions = origin_positions(n, settings, horizon)
     n_paths = backtest_path_count(n_paths, settings)
@@ -132,13 +145,19 @@ def backtest_inputs(
         training, observed = values[:origin], values[origin : origin + horizon]
         scale = metrics.mase_scale(training)
         one_step = None
+        columns = inputs.columns_at(origin)
+        deterministic_all = inputs.deterministic
+        origin_names = names
+        if columns is not None:
+            deterministic_all = deterministic_all[:, columns]
+            origin_names = tuple(names[j] for j in columns)
         for strategy, strategy_rng in zip(STRATEGIES, origin_rng.spawn(3), strict=True):
             path_rng, rounding_rng = strategy_rng.spawn(2)
             series = SeriesDesign(
                 training,
                 deterministic_all[:origin],
                 deterministic_all[origin : origin + horizon],
-                names,
+                origin_names,
             )
             result = model_paths(strategy, series, settings, n_paths, path_rng, one_step=one_step)
             if result.one_step is not None:  # the direct strategy reuses the recursive's fit
@@ -154,8 +173,10 @@ def backtest_inputs(
                 X, y = design(values[:end], result.one_step.order, deterministic_all[:end])
                 days = end - origin
                 one_step_errors.append(y[-days:] - X[-days:] @ result.one_step.coefficients)
-            if strategy == "direct" and observed.shape[0] == horizon:
-                direct_errors.append(observed - result.point)
+            if strategy == "direct":
+                errors = np.full(horizon, np.nan)
+                errors[: observed.shape[0]] = observed - result.point[: observed.shape[0]]
+                direct_errors.append(errors)
     rows = [row for strategy in STRATEGIES for row in _score(strategy, scored[strategy], horizon)]
     residuals = {
         "recursive": np.concatenate(one_step_errors),

@@ -4,13 +4,14 @@ history, do not redo the rolling-origin backtest (about a quarter of a second on
 An entry is keyed by a SHA-256 digest of everything the backtest reads
 (:func:`backtest_key`): the admissions history's values and dates (its content, not the
 file's path), the deterministic columns over the history and the horizon (so the calendar
-terms, holidays and trend are in it), the settings the backtest uses (``max_lag``,
-``criterion``, ``order``, ``refit``, ``refit_series``, ``backtest_origins``,
-``backtest_every``, the paths per origin), the horizon, the random stream it draws from (the
-generator's ``SeedSequence``: entropy, spawn key, children already spawned) and the code: the
-entry format's :data:`CACHE_VERSION`, a digest of the forecast package's source files and
-the numpy and scipy versions. The forecast settings the backtest does not read (``strategy``,
-``residuals``, demand changes) are not in the key: plans differing only in them share it.
+terms, holidays, trend and level changes' steps are in it), the settings the backtest uses
+(``max_lag``, ``min_lag``, ``criterion``, ``order``, ``refit``, ``refit_series``,
+``backtest_origins``, ``backtest_every``, the paths per origin), the horizon, the random
+stream it draws from (the generator's ``SeedSequence``: entropy, spawn key, children already
+spawned) and the code: the entry format's :data:`CACHE_VERSION`, a digest of the forecast
+package's source files and the numpy and scipy versions. The forecast settings the backtest
+does not read (``strategy``, ``residuals``, demand changes, the stated sizes of level changes)
+are not in the key: plans differing only in them share it.
 
 Where: ``$PLANNER_CACHE`` when set (an empty value turns the cache off), else a ``planner``
 folder under ``$XDG_CACHE_HOME``, else under ``~/.cache``. Entries are ``.npz`` files (no
@@ -105,6 +106,7 @@ def backtest_key(
         inputs.deterministic.shape,
         inputs.horizon,
         settings.max_lag,
+        settings.min_lag,
         settings.criterion,
         settings.order,
         bool(settings.refit),

@@ -30,10 +30,13 @@ from planner.forecast.strategies import simulate_recursive
 
 
 def centred(residuals) -> np.ndarray:
-    """Residuals minus their mean (column means for a matrix of error paths)."""
+    """Residuals minus their mean (column means for a matrix of error paths, over the values
+    that are not NaN)."""
     residuals = np.asarray(residuals, dtype=float)
     if residuals.shape[0] == 0:
         raise PlannerError("residuals: no residuals to resample")
+    if np.isnan(residuals).any():
+        return residuals - np.nanmean(residuals, axis=0)
     return residuals - residuals.mean(axis=0)
 
 
@@ -44,15 +47,19 @@ def recursive_paths(
     n_paths: int,
     rng: np.random.Generator,
     residual_pool=None,
+    deterministic_coefficients=None,
 ) -> np.ndarray:
     """``(n_paths, H)`` continuous paths from the recursive model; shocks are resampled from
-    ``residual_pool`` (default: the fit's in-sample residuals), centred."""
+    ``residual_pool`` (default: the fit's in-sample residuals), centred.
+    ``deterministic_coefficients``: ``(n_paths, k)`` per path instead of the fit's."""
     pool = centred(fit.residuals if residual_pool is None else residual_pool)
     horizon = future_deterministic.shape[0]
     shocks = pool[rng.integers(0, pool.shape[0], size=(n_paths, horizon))]
+    if deterministic_coefficients is None:
+        deterministic_coefficients = fit.deterministic_coefficients
     return simulate_recursive(
         fit.lag_coefficients,
-        fit.deterministic_coefficients,
+        deterministic_coefficients,
         last_values,
         future_deterministic,
         shocks,
@@ -106,7 +113,13 @@ def direct_paths(
     point: np.ndarray, error_paths: np.ndarray, n_paths: int, rng: np.random.Generator
 ) -> np.ndarray:
     """``(n_paths, H)``: ``point`` (H,) plus one whole row of ``error_paths`` (origins x H) per
-    path, the row drawn uniformly with replacement."""
+    path, the row drawn uniformly with replacement.
+
+    A row may end in NaN: a backtest origin whose horizon ran past the end of the history
+    observed only its first days. Rows are then ordered by the days they observed, most first
+    (earlier origins first), and each unobserved day of a drawn row takes that horizon day's
+    error from a row drawn uniformly among those that observed it (one more draw per path and
+    day, made only when some row has NaN)."""
     error_paths = np.asarray(error_paths, dtype=float)
     if error_paths.ndim != 2 or error_paths.shape[0] == 0:
         raise PlannerError("residuals: no complete error paths to resample")
@@ -114,7 +127,18 @@ def direct_paths(
         raise PlannerError(
             f"horizon: error paths cover {error_paths.shape[1]} days, need {point.shape[0]}"
         )
-    return point[None, :] + error_paths[rng.integers(0, error_paths.shape[0], size=n_paths)]
+    errors = error_paths[rng.integers(0, error_paths.shape[0], size=n_paths)]
+    missing = np.isnan(errors)
+    if np.isnan(error_paths).any():
+        known = ~np.isnan(error_paths)
+        observed = known.sum(axis=0)  # rows observing each horizon day: the first ones
+        first_rows = np.arange(known.shape[0])[:, None] < observed[None, :]
+        if not observed.all() or not np.array_equal(known, first_rows):
+            raise PlannerError("residuals: error paths must observe every day's first rows")
+        rows = rng.integers(0, observed[None, :], size=errors.shape)
+        filled = error_paths[rows, np.arange(errors.shape[1])[None, :]]
+        errors = np.where(missing, filled, errors)
+    return point[None, :] + errors
 
 
 def to_counts(paths, rng: np.random.Generator) -> np.ndarray:

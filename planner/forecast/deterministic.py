@@ -9,6 +9,9 @@ Columns (names as in the fitted coefficients):
 - ``trend``: days since ``origin`` (a linear trend, units: days).
 - ``holiday``: 1 on public holidays (given dates, or a country's holidays through the
   ``holidays`` package, imported only when asked for), else 0.
+- ``level_change_YYYY-MM-DD``: a step, 0 before that date and 1 from it, one per declared
+  level change inside the history (:mod:`planner.forecast.level_change`), so the fit
+  estimates the level after it.
 
 Because every column is a function of the date, ``in_sample`` (dates of the history) and
 ``out_of_sample`` (dates to forecast) give one consistent design: the same date always gets the
@@ -26,6 +29,8 @@ import pandas as pd
 from planner.errors import PlannerError
 
 ANNUAL_PERIOD_DAYS = 365.25
+#: Name of a level change's step column: this prefix and the ISO date of its first day.
+STEP_PREFIX = "level_change_"
 WEEKDAY_NAMES = ("tuesday", "wednesday", "thursday", "friday", "saturday", "sunday")
 
 
@@ -43,6 +48,7 @@ class DeterministicTerms:
     trend: bool = False
     holiday_dates: tuple[date, ...] = ()
     holiday_country: str | None = None
+    level_changes: tuple[pd.Timestamp, ...] = ()
 
     @property
     def names(self) -> tuple[str, ...]:
@@ -56,6 +62,7 @@ class DeterministicTerms:
             names.append("trend")
         if self.holiday_dates or self.holiday_country:
             names.append("holiday")
+        names += [f"{STEP_PREFIX}{day.date().isoformat()}" for day in self.level_changes]
         return tuple(names)
 
     def in_sample(self, dates: pd.DatetimeIndex) -> pd.DataFrame:
@@ -82,6 +89,7 @@ class DeterministicTerms:
             columns.append(days)
         if self.holiday_dates or self.holiday_country:
             columns.append(self._holiday_indicator(dates))
+        columns += [(dates >= day.normalize()).astype(float) for day in self.level_changes]
         matrix = np.column_stack(columns) if columns else np.empty((len(dates), 0))
         return pd.DataFrame(matrix, index=dates, columns=list(self.names))
 
@@ -104,12 +112,24 @@ def country_holidays(country: str, dates: pd.DatetimeIndex) -> list[date]:
     return list(calendar.keys())
 
 
+def step_columns(names) -> list[int]:
+    """Positions of the level changes' step columns among the column ``names``."""
+    return [i for i, name in enumerate(names or ()) if name.startswith(STEP_PREFIX)]
+
+
 def terms_for_history(settings, dates: pd.DatetimeIndex) -> DeterministicTerms:
     """Resolve ``settings`` (ForecastSettings) against the history's dates: ``annual="auto"``
-    switches the Fourier terms on with at least two years (730 days) of history."""
+    switches the Fourier terms on with at least two years (730 days) of history; a step column
+    for each level change dated after the first day and on or before the last."""
     annual = settings.annual
     if annual == "auto":
         annual = len(dates) >= 730
+    first, last = pd.Timestamp(dates[0]), pd.Timestamp(dates[-1])
+    steps = sorted(
+        pd.Timestamp(change.date)
+        for change in settings.level_changes
+        if first < pd.Timestamp(change.date) <= last
+    )
     return DeterministicTerms(
         origin=pd.Timestamp(dates[0]),
         constant=True,
@@ -118,4 +138,5 @@ def terms_for_history(settings, dates: pd.DatetimeIndex) -> DeterministicTerms:
         trend=bool(settings.trend),
         holiday_dates=tuple(settings.holiday_dates),
         holiday_country=settings.holiday_country,
+        level_changes=tuple(steps),
     )

@@ -81,6 +81,15 @@ def direct_regressions(
     return coefficients, designs.residuals(coefficients)
 
 
+def direct_grams(
+    values: np.ndarray, order: int, horizon: int, deterministic: np.ndarray
+) -> np.ndarray:
+    """``X_h'X_h`` of the H direct regressions, ``(H, k, k)`` (for their coefficients'
+    standard errors)."""
+    y = np.asarray(values, dtype=float)
+    return _Designs(y, np.asarray(deterministic, dtype=float), order, horizon).gram()
+
+
 def _times(matrices: np.ndarray, vectors: np.ndarray) -> np.ndarray:
     """``matrices[h] @ vectors[h]`` for every h."""
     return np.matmul(matrices, vectors[:, :, None])[:, :, 0]

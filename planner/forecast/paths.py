@@ -19,6 +19,8 @@ from planner.forecast.bootstrap import (
     recursive_paths,
     refit_recursive_paths,
 )
+from planner.forecast.deterministic import step_columns
+from planner.forecast.level_uncertainty import direct_step_shifts, drawn_deterministic
 from planner.forecast.naive import seasonal_naive_errors, seasonal_naive_point
 from planner.forecast.strategies import direct_point, fit_direct, recursive_point
 
@@ -67,7 +69,11 @@ def model_paths(
     ``one_step``: the one-step model already fitted on these values with these settings (the
     backtest fits it once per origin for both strategies). ``residual_pool`` replaces the
     recursive model's in-sample residuals and ``error_paths`` the direct model's aligned
-    residual paths (used for ``residuals="backtest"``).
+    residual paths (used for ``residuals="backtest"``; days an error path did not observe are
+    NaN, see :func:`planner.forecast.bootstrap.direct_paths`).
+
+    Level changes' step columns (named in ``design.names``) have their coefficient drawn per
+    path (:mod:`planner.forecast.level_uncertainty`); without them no extra numbers are drawn.
     """
     values, deterministic, names = design.values, design.deterministic, design.names
     future_deterministic = design.future
@@ -85,10 +91,17 @@ def model_paths(
             settings.criterion,
             settings.order,
             engine="numpy",
+            min_lag=settings.min_lag,
         )
+    steps = step_columns(names)
     if strategy == "recursive":
         point = recursive_point(one_step, values, future_deterministic)
-        if settings.refit:
+        if steps and not settings.refit:  # the refits carry the step's uncertainty already
+            drawn = drawn_deterministic(one_step, values, deterministic, steps, n_paths, rng)
+            paths = recursive_paths(
+                one_step, values, future_deterministic, n_paths, rng, residual_pool, drawn
+            )
+        elif settings.refit:
             paths = refit_recursive_paths(
                 one_step,
                 values,
@@ -107,4 +120,8 @@ def model_paths(
     direct = fit_direct(values, one_step.order, horizon, deterministic, names, engine="numpy")
     point = direct_point(direct, values, future_deterministic)
     errors = centred(direct.aligned_residuals() if error_paths is None else error_paths)
-    return StrategyPaths(strategy, direct_paths(point, errors, n_paths, rng), point, one_step)
+    paths = direct_paths(point, errors, n_paths, rng)
+    if steps:
+        future = future_deterministic
+        paths += direct_step_shifts(direct, values, deterministic, future, steps, n_paths, rng)
+    return StrategyPaths(strategy, paths, point, one_step)

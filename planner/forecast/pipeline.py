@@ -1,8 +1,15 @@
 """The forecast engine's two entry points: :func:`forecast_admissions` and :func:`run_backtest`.
 
-Data flow: validated history -> deterministic terms -> (backtest, when the strategy is "auto"
-or residuals are "backtest") -> fit and bootstrap paths for the chosen strategy -> demand
-adjustments -> clip and stochastic rounding -> :class:`ForecastResult`.
+Data flow: validated history -> deterministic terms (with a step per level change inside the
+history) -> (backtest, when the strategy is "auto" or residuals are "backtest") -> fit and
+bootstrap paths for the chosen strategy -> announced level changes -> demand adjustments ->
+clip and stochastic rounding -> :class:`ForecastResult`, with the drift alarm
+(:mod:`planner.forecast.drift`) on the last weeks' one-step errors.
+
+With ``residuals = "backtest"`` the direct strategy needs at least
+:data:`planner.forecast.settings.LEAST_ERROR_PATHS` error paths from the backtest (one per
+origin): a scenario asking for the direct strategy is refused when it is read, one with
+"auto" when the backtest chooses the direct strategy.
 
 Randomness: ``rng`` is split with ``Generator.spawn`` into independent streams for the backtest,
 the paths and the rounding, so the same seed gives the same result.
@@ -28,8 +35,12 @@ from planner.forecast.backtest import BacktestInputs
 from planner.forecast.backtest_cache import cached_backtest
 from planner.forecast.bootstrap import to_counts
 from planner.forecast.deterministic import terms_for_history
+from planner.forecast.drift import watched_drift
+from planner.forecast.level_change import announced_changes, level_multipliers
+from planner.forecast.level_uncertainty import level_estimates
 from planner.forecast.paths import SeriesDesign, model_paths
 from planner.forecast.result import BacktestResult, ForecastResult, ForecastSummary
+from planner.forecast.settings import LEAST_ERROR_PATHS
 
 HISTORY_TAIL_DAYS = 182
 
@@ -46,6 +57,7 @@ def run_backtest(
     days (see :mod:`planner.forecast.backtest`). Given a generator made from the same seed, it
     is the very backtest :func:`forecast_admissions` runs to choose the "auto" strategy."""
     dates = pd.DatetimeIndex(history.index)
+    announced_changes(settings, dates, horizon)  # refuses level changes the history cannot take
     terms = terms_for_history(settings, dates)
     keep = tuple(observed_columns(terms, dates))
     backtest_rng = rng.spawn(3)[0]
@@ -80,6 +92,7 @@ def forecast_admissions(
     if gap < 0:
         raise PlannerError(f"start: {start.date()} is before the day after the history ends")
     total = gap + horizon
+    announced = announced_changes(settings, dates, total)
     terms = terms_for_history(settings, dates)
     keep = list(observed_columns(terms, dates))
     future_dates = pd.date_range(first_day, periods=total, freq="D")
@@ -102,6 +115,13 @@ def forecast_admissions(
     if settings.residuals == "backtest":
         residual_pool = backtest.residuals["recursive"]
         error_paths = backtest.residuals["direct"]
+        if strategy == "direct" and error_paths.shape[0] < LEAST_ERROR_PATHS:
+            raise PlannerError(
+                f'forecast.residuals: "backtest" with the direct strategy needs at least '
+                f"{LEAST_ERROR_PATHS} backtest error paths (one per origin), the backtest has "
+                f"{error_paths.shape[0]}; give a longer history or more backtest origins "
+                f"(forecast.backtest_origins)"
+            )
     result = model_paths(
         strategy,
         SeriesDesign(values, deterministic, future_deterministic, tuple(keep)),
@@ -111,7 +131,10 @@ def forecast_admissions(
         residual_pool=residual_pool,
         error_paths=error_paths,
     )
-    adjusted = adjust_paths(result.paths[:, gap:], future_dates[gap:], settings.demand)
+    paths = result.paths
+    if announced:
+        paths = paths * level_multipliers(future_dates, announced)[None, :]
+    adjusted = adjust_paths(paths[:, gap:], future_dates[gap:], settings.demand)
     counts = to_counts(adjusted, rounding_rng)
     fit = result.one_step
     summary = ForecastSummary(
@@ -127,6 +150,9 @@ def forecast_admissions(
         refit=bool(settings.refit),
         backtest=backtest,
         backtest_pinball=pinball,
+        drift=watched_drift(fit, backtest, dates, terms.level_changes),
+        level_changes=level_estimates(fit, values, deterministic, tuple(keep)),
+        announced_changes=announced,
     )
     return ForecastResult(
         dates=future_dates[gap:],

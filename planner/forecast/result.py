@@ -14,6 +14,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from planner.forecast.drift import DriftAlarm
+
 QUANTILE_LEVELS = (0.05, 0.1, 0.25, 0.5, 0.75, 0.9, 0.95)
 
 
@@ -26,10 +28,10 @@ def quantile_column(level: float) -> str:
 class BacktestResult:
     """Rolling-origin evaluation. ``origins``: first forecast day of each origin.
     ``residuals``: out-of-sample errors (admissions) per strategy, ``"recursive"``: 1-D one-step
-    errors on every day of the backtest window; ``"direct"``: ``(origins, H)`` error paths of the
-    origins whose whole horizon lies inside the history. ``from_cache``: True when this result
-    was read from the backtest cache (:mod:`planner.forecast.backtest_cache`) rather than
-    computed in this process; the numbers are the same either way."""
+    errors on every day of the backtest window; ``"direct"``: ``(origins, H)`` error paths of
+    every origin, NaN on the days past the end of the history. ``from_cache``: True when this
+    result was read from the backtest cache (:mod:`planner.forecast.backtest_cache`) rather
+    than computed in this process; the numbers are the same either way."""
 
     table: pd.DataFrame
     origins: pd.DatetimeIndex
@@ -43,9 +45,23 @@ class BacktestResult:
 
 
 @dataclass(frozen=True)
+class LevelEstimate:
+    """A level change inside the history as the one-step model estimated it: from ``date``,
+    ``per_day`` admissions per day in the long run, with its ``standard_error``."""
+
+    date: pd.Timestamp
+    per_day: float
+    standard_error: float
+
+
+@dataclass(frozen=True)
 class ForecastSummary:
     """What was fitted and why. Coefficients, sigma2 (admissions^2), aic, bic and nobs are those
-    of the one-step model (for "direct", its h = 1 regression is the same model)."""
+    of the one-step model (for "direct", its h = 1 regression is the same model). ``drift``:
+    the drift alarm (:class:`planner.forecast.drift.DriftAlarm`) or None when it did not
+    signal; ``level_changes``: the changes estimated inside the history;
+    ``announced_changes``: the changes after it applied to the paths
+    (:class:`planner.forecast.settings.LevelChange`)."""
 
     strategy: str
     order: int
@@ -59,6 +75,9 @@ class ForecastSummary:
     refit: bool
     backtest: BacktestResult | None = None
     backtest_pinball: dict[str, float] = field(default_factory=dict)
+    drift: DriftAlarm | None = None
+    level_changes: tuple[LevelEstimate, ...] = ()
+    announced_changes: tuple = ()
 
 
 @dataclass(frozen=True)

@@ -7,6 +7,10 @@ from datetime import date
 
 from planner.schema import default
 
+#: Fewest backtest error paths (one per origin) the direct strategy resamples with
+#: ``residuals = "backtest"``.
+LEAST_ERROR_PATHS = 50
+
 
 @dataclass(frozen=True)
 class Surge:
@@ -28,13 +32,27 @@ class DemandAdjustment:
 
 
 @dataclass(frozen=True)
+class LevelChange:
+    """A dated change in the level of admissions (``[[forecast.level_change]]``).
+
+    Inside the history the level after ``date`` is estimated (a step term in the fit) and
+    ``relative_change`` is not used; after the history the paths are multiplied by
+    ``1 + relative_change`` from ``date`` on, so it is required there (checked against the
+    history by :func:`planner.forecast.level_change.check_level_changes`)."""
+
+    date: date
+    relative_change: float | None = None
+
+
+@dataclass(frozen=True)
 class ForecastSettings:
     """How admissions are modelled and sampled.
 
     strategy: "recursive" (one one-step AR model, predictions fed back), "direct" (one model
         per horizon day) or "auto" (the one with the lower mean pinball loss in the backtest).
-    max_lag: largest AR order tried (days); criterion: "aic" or "bic" for choosing it.
-    order: a fixed AR order instead of choosing one (None = choose).
+    max_lag: largest AR order tried (days); min_lag: smallest (0 = calendar terms only);
+        criterion: "aic" or "bic" for choosing it.
+    order: a fixed AR order instead of choosing one (None = choose; 0 = calendar terms only).
     weekday: day-of-week dummies. annual: annual Fourier terms ("auto" = on with >= 2 years
         of history). fourier_pairs: number of sine/cosine pairs for the annual cycle.
     trend: a linear time trend. holiday_dates / holiday_country: public-holiday indicator.
@@ -44,6 +62,7 @@ class ForecastSettings:
     backtest_origins / backtest_every: rolling-origin backtest, number of origins and days
         between them (default: weekly origins over the last 26 weeks); backtest_paths: sample
         paths per origin and strategy (the smaller of this and the run's paths is used).
+    level_changes: dated changes in the level of admissions (:class:`LevelChange`).
 
     Defaults and allowed values are those of the scenario's keys (:mod:`planner.schema`); the
     scenario reader checks them, so the forecast code takes these settings as valid.
@@ -51,6 +70,7 @@ class ForecastSettings:
 
     strategy: str = default("forecast.strategy")
     max_lag: int = default("forecast.max_lag")
+    min_lag: int = default("forecast.min_lag")
     criterion: str = default("forecast.criterion")
     order: int | None = default("forecast.order")
     weekday: bool = default("forecast.weekday")
@@ -65,4 +85,5 @@ class ForecastSettings:
     backtest_origins: int = default("forecast.backtest_origins")
     backtest_every: int = default("forecast.backtest_every_days")
     backtest_paths: int = default("forecast.backtest_paths")
+    level_changes: tuple[LevelChange, ...] = ()
     demand: DemandAdjustment = field(default_factory=DemandAdjustment)

@@ -104,6 +104,26 @@ def _ward_plan(scenario) -> list[tuple[str, str]]:
     ]
 
 
+NO_DRIFT = (
+    "No drift signalled: the CUSUM of the last 13 weeks of one-step errors (k = 0.5, h = 5 "
+    "standard deviations) stayed inside its limits in both directions."
+)
+
+
+def _level_changes(summary) -> list[tuple[str, str]]:
+    """The "Level changes" item: estimated inside the history, announced after it."""
+    parts = [
+        f"from {change.date.date()} estimated at {change.per_day:+.1f} admissions/day "
+        f"(standard error {change.standard_error:.1f}, drawn into the paths)"
+        for change in summary.level_changes
+    ]
+    parts += [
+        f"from {change.date} announced {change.relative_change:+.1%}"
+        for change in summary.announced_changes
+    ]
+    return [("Level changes", "; ".join(parts))] if parts else []
+
+
 NO_HINDCAST = (
     "No hindcast has been run for this setup: the census forecast has not yet been checked "
     "against past dates (planner hindcast)."
@@ -156,6 +176,8 @@ def assumptions(run: RunResult, hindcast: HindcastQuote | None = None) -> list[t
             f"{summary.residuals.replace('_', '-')} residual bootstrap, "
             f"{run.paths} paths",
         ),
+        *_level_changes(summary),
+        ("Drift check", summary.drift.message() if summary.drift else NO_DRIFT),
     ]
     if summary.backtest is not None:
         overall = summary.backtest.overall()

@@ -11,6 +11,7 @@ import numpy as np
 import pandas as pd
 
 from planner.errors import PlannerError
+from planner.forecast.level_change import check_level_changes
 from planner.forecast.requirements import check_history_length
 from planner.records.files import (
     admissions_from_episodes,
@@ -62,6 +63,7 @@ def load_history(scenario: Scenario) -> WardHistory:
     forecast_days = (start - first_free).days + scenario.horizon_days
     source = scenario.admissions_file or scenario.episodes_file
     check_history_length(admissions, scenario.forecast, forecast_days, source)
+    check_level_changes(admissions.index, scenario.forecast, forecast_days, scenario.source)
     return WardHistory(admissions, episodes, start)
 
 

@@ -8,6 +8,13 @@ Sources:
   Analysis, 5th ed., ch. 5: ``Var(e_h) = sigma^2 sum_{j<h} psi_j^2`` and, for the sum of the
   next k values, ``sigma^2 sum_{i=1..k} (sum_{j=0..k-i} psi_j)^2``; for an AR(1),
   ``psi_j = phi^j`` and ``Var(e_h) = sigma^2 (1 - phi^(2h)) / (1 - phi^2)``.
+- Tabular CUSUM (Page 1954; Montgomery, Introduction to Statistical Quality Control, ch. 9;
+  values from memory): with ``k = 1/2`` and ``h = 5`` the two-sided scheme's in-control
+  average run length is 465 (Montgomery's table of ARL for k = 1/2, h = 4 and 5). Siegmund's
+  approximation of a one-sided scheme's ARL, as Montgomery gives it:
+  ``ARL = (exp(-2 D b) + 2 D b - 1) / (2 D^2)`` with ``D = delta - k`` (delta the mean shift in
+  standard deviations) and ``b = h + 1.166``; for two one-sided schemes together
+  ``1 / ARL = 1 / ARL+ + 1 / ARL-``.
 """
 
 import numpy as np
@@ -45,3 +52,14 @@ def sum_error_variance(psi: np.ndarray, sigma2: float, k: int) -> float:
     """Box-Jenkins error variance of the sum of the next k values:
     sigma^2 sum_{i=1..k} (sum_{j=0..k-i} psi_j)^2."""
     return sigma2 * sum(np.sum(psi[: k - i + 1]) ** 2 for i in range(1, k + 1))
+
+
+# Source: Montgomery, Introduction to Statistical Quality Control, ch. 9 (from memory).
+CUSUM_TWO_SIDED_ARL0_K05_H5 = 465.0
+
+
+def siegmund_arl(shift: float, k: float, h: float) -> float:
+    """Siegmund's approximation of a one-sided CUSUM's average run length (Montgomery ch. 9,
+    from memory); ``shift`` in standard deviations (0 = in control)."""
+    d, b = shift - k, h + 1.166
+    return (np.exp(-2 * d * b) + 2 * d * b - 1) / (2 * d**2)
