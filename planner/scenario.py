@@ -297,6 +297,9 @@ def load_scenario(path: str | Path | None = None) -> Scenario:
         costs=Costs(**{k: float(v) for k, v in _table(document, "costs").items()}),
         resolved=document,
         history_format=HistoryFormat(
-            history["date_format"], history["timestamp_format"], history["fill_missing_days"]
+            history["date_format"],
+            history["timestamp_format"],
+            history["fill_missing_days"],
+            history["over_beds"],
         ),
     )

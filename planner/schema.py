@@ -105,6 +105,15 @@ TABLES = (
                 "Count days missing from the daily file as 0 admissions "
                 "(default: refuse a file with missing days).",
             ),
+            Key(
+                "over_beds",
+                "str",
+                "refuse",
+                "When the episodes put more patients on the ward at the start than beds are "
+                "open that day: refuse (the file probably holds several wards, or the beds are "
+                "wrong) or allow (the ward really was over its beds; nobody is moved).",
+                choices=("refuse", "allow"),
+            ),
         ),
     ),
     Table(

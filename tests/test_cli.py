@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 from click.testing import CliRunner
 
 from planner.cli import cli
@@ -36,3 +38,27 @@ def test_help_carries_the_caution():
     result = CliRunner().invoke(cli, ["--help"])
     assert result.exit_code == 0
     assert "professional judgement" in result.output
+
+
+def over_beds_plan(tmp_path, extra: str = "") -> Path:
+    """The demo ward's records with too few beds for the 22 patients on the ward at the start."""
+    data = Path(__file__).resolve().parents[1] / "scenarios" / "data"
+    plan = tmp_path / "small.toml"
+    plan.write_text(
+        f'[history]\nepisodes = "{data / "larch_episodes.csv"}"\n'
+        f'admissions = "{data / "larch_admissions.csv"}"\n{extra}[beds]\nbase = 15\n'
+    )
+    return plan
+
+
+def test_more_patients_than_beds_at_the_start_is_refused(tmp_path):
+    # Common practice: a ward cannot start with more patients in beds than beds, so such
+    # records usually hold several wards; planner says so rather than simulating nonsense.
+    result = CliRunner().invoke(cli, ["check", str(over_beds_plan(tmp_path))])
+    assert result.exit_code == 2
+    line = result.output.strip()
+    assert "\n" not in line
+    assert "22 patients on the ward at 00:00 on 2026-11-30 but 15 beds open" in line
+    assert "does the file hold several wards?" in line and 'history.over_beds = "allow"' in line
+    allowed = over_beds_plan(tmp_path, 'over_beds = "allow"\n')
+    assert CliRunner().invoke(cli, ["check", str(allowed)]).exit_code == 0

@@ -261,8 +261,8 @@ def long_ward(folder, years: int, episodes: int) -> None:
             "discharged_at": pd.Series(discharged.strftime("%Y-%m-%d %H:%M")).fillna(""),
         }
     ).to_csv(folder / "episodes.csv", index=False)
-    (folder / "plan.toml").write_text(
-        '[history]\nadmissions = "ward.csv"\nepisodes = "episodes.csv"\n'
+    (folder / "plan.toml").write_text(  # beds enough for the invented records' census
+        '[history]\nadmissions = "ward.csv"\nepisodes = "episodes.csv"\n[beds]\nbase = 500\n'
     )
 
 

@@ -27,22 +27,26 @@ import numpy as np
 import pandas as pd
 
 from planner.errors import PlannerError
+from planner.schema import default
 
 _SLASHED = re.compile(r"^\d{1,2}[/.\-]\d{1,2}[/.\-]\d{2,4}\b")
 
 
 @dataclass(frozen=True)
 class HistoryFormat:
-    """How a ward's files write their dates, and what to do about missing days.
+    """How a ward's files write their dates, and what to do about missing days and about more
+    patients on the ward than beds.
 
     date_format: ``strptime`` format of the daily file's ``date`` column (None: YYYY-MM-DD).
     timestamp_format: format of the episode file's timestamps (None: ISO 8601).
     fill_missing_days: count days absent from the daily file as 0 admissions (else refuse).
+    over_beds: "refuse" or "allow" more patients on the ward at the start than beds open.
     """
 
     date_format: str | None = None
     timestamp_format: str | None = None
     fill_missing_days: bool = False
+    over_beds: str = default("history.over_beds")
 
 
 def _text(path: Path) -> str:

@@ -64,7 +64,31 @@ def load_history(scenario: Scenario) -> WardHistory:
     source = scenario.admissions_file or scenario.episodes_file
     check_history_length(admissions, scenario.forecast, forecast_days, source)
     check_level_changes(admissions.index, scenario.forecast, forecast_days, scenario.source)
-    return WardHistory(admissions, episodes, start)
+    history = WardHistory(admissions, episodes, start)
+    check_patients_fit_beds(scenario, history)
+    return history
+
+
+def check_patients_fit_beds(scenario: Scenario, history: WardHistory) -> None:
+    """Refuse episodes that put more patients on the ward at the start than beds are open that
+    day (a file of several wards, or the wrong beds), unless ``history.over_beds = "allow"``;
+    the message names the largest recorded census and its day."""
+    if history.episodes is None or scenario.history_format.over_beds == "allow":
+        return
+    from planner.simulate.ward import beds_open_by_day
+
+    patients = history.inpatients_elapsed().size
+    beds = int(beds_open_by_day(scenario.ward, history.first_day.date(), 1)[0])
+    if patients <= beds:
+        return
+    census = history.census()
+    raise PlannerError(
+        f"{scenario.episodes_file}: {patients} patients on the ward at 00:00 on "
+        f"{history.first_day.date()} but {beds} beds open (beds.base = {scenario.ward.beds}); "
+        f"the records reach a census of {int(census.max())} on {census.idxmax().date()}: does "
+        f"the file hold several wards? Give one ward's episodes, correct [beds], or set "
+        f'history.over_beds = "allow" if the ward really was over its beds'
+    )
 
 
 def check_scenario(path: Path | None) -> list[str]:
