@@ -121,8 +121,9 @@ CASES = [
     Case("binary file", ("is not a text file (binary data)",),
          {"ward.csv": b"PK\x03\x04\x14\x00\x00\x00\x08\x00" + bytes(range(256))}),
     Case("UTF-16 file", ("is UTF-16 text",), {"ward.csv": GOOD.encode("utf-16")}),
-    Case("Latin-1 file", ("line 2: byte 0xe9 is not UTF-8 text",),
-         {"ward.csv": "date,admissions\n2026-01-01,3 \xe9\n".encode("latin-1")}),
+    Case("neither UTF-8 nor Windows-1252", ("line 2: byte 0xe9 is not UTF-8 text, and byte "
+                                             "0x81 on line 2 is not Windows-1252 either",),
+         {"ward.csv": b"date,admissions\n2026-01-01,3 \xe9\x81\n"}),
     Case("folder given as a file", ("is a folder, not a CSV file",), {"ward.csv/x": GOOD}),
     Case("discharge before admission", ("line 3: discharged_at 2026-01-02 09:00 is before "
                                         "admitted_at 2026-01-02 10:00",),

@@ -308,3 +308,23 @@ def test_twenty_years_and_100000_episodes_fit_in_memory(tmp_path):
 def test_open_episodes_may_share_an_admission_minute(tmp_path):
     text = "admitted_at,discharged_at\n2026-01-01 08:00,\n2026-01-01 08:00,\n"
     assert len(read_episodes(write(tmp_path, text))) == 2
+
+
+def test_exports_as_they_come_still_in_markers_seconds_and_windows_text(tmp_path):
+    # Common practice in hospital exports: NULL or NA for a patient still on the ward,
+    # timestamps with seconds, Windows-1252 ("ANSI") text with a non-ASCII header note.
+    text = (
+        "admitted_at;discharged_at;note\n"
+        "01/11/2026 10:00:30;03/11/2026 12:00:15;caf\xe9\n"
+        "02/11/2026 09:00;NULL;\n"
+        "02/11/2026 11:00;n/a;\n"
+    )
+    path = write(tmp_path, text, "episodes.csv", encoding="cp1252")
+    episodes = read_episodes(path, HistoryFormat(timestamp_format="%d/%m/%Y %H:%M"))
+    assert episodes["admitted_at"].tolist() == [
+        pd.Timestamp("2026-11-01 10:00:30"),
+        pd.Timestamp("2026-11-02 09:00"),
+        pd.Timestamp("2026-11-02 11:00"),
+    ]
+    assert episodes["discharged_at"].iloc[0] == pd.Timestamp("2026-11-03 12:00:15")
+    assert episodes["discharged_at"].iloc[1:].isna().all()

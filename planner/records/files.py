@@ -6,12 +6,15 @@ Two file shapes are accepted:
   ``history.date_format``, one row per day in increasing order, no gaps (unless
   ``history.fill_missing_days`` counts missing days as 0), non-negative whole numbers;
 * episodes, ``admitted_at,discharged_at``: ISO timestamps (YYYY-MM-DD HH:MM[:SS] or with a
-  ``T``) unless the scenario declares ``history.timestamp_format``; an empty
-  ``discharged_at`` means the patient is still on the ward.
+  ``T``) unless the scenario declares ``history.timestamp_format`` (seconds are accepted after
+  a declared format that stops at minutes); an empty ``discharged_at``, or one of the markers
+  that exports write for "none" (NULL, NA, N/A, None, NaT, in any case), means the patient is
+  still on the ward.
 
-Both may carry a UTF-8 byte-order mark, Windows line ends, and either comma or semicolon
-separators. Every problem raises :class:`PlannerError` naming the file, the line and the
-problem. Line numbers count the header as line 1.
+Both may be UTF-8 (with or without a byte-order mark) or Windows-1252 ("ANSI") text, with
+Windows line ends, and either comma or semicolon separators. Every problem raises
+:class:`PlannerError` naming the file, the line and the problem. Line numbers count the
+header as line 1.
 """
 
 from __future__ import annotations
@@ -29,6 +32,8 @@ import pandas as pd
 from planner.errors import PlannerError
 from planner.schema import default
 
+#: What exports write in ``discharged_at`` for a patient still on the ward (any case).
+STILL_IN_MARKERS = ("null", "na", "n/a", "none", "nat")
 _SLASHED = re.compile(r"^\d{1,2}[/.\-]\d{1,2}[/.\-]\d{2,4}\b")
 
 
@@ -63,10 +68,16 @@ def _text(path: Path) -> str:
     try:
         return data.decode("utf-8-sig")
     except UnicodeDecodeError as error:
+        utf8_error = error
+    try:  # an older Windows export: dates and counts read the same in either encoding
+        return data.decode("cp1252")
+    except UnicodeDecodeError as error:
         line = data[: error.start].count(b"\n") + 1
+        first = data[: utf8_error.start].count(b"\n") + 1
         raise PlannerError(
-            f"{path}: line {line}: byte {data[error.start]:#04x} is not UTF-8 text; "
-            f"save the file as CSV in UTF-8"
+            f"{path}: line {first}: byte {data[utf8_error.start]:#04x} is not UTF-8 text, and "
+            f"byte {data[error.start]:#04x} on line {line} is not Windows-1252 either; save the "
+            f"file as CSV in UTF-8"
         ) from None
 
 
@@ -116,6 +127,10 @@ def _parse_times(
     pattern = fmt or ("%Y-%m-%d" if dates_only else "ISO8601")
     parsed = pd.to_datetime(values.where(given), format=pattern, errors="coerce")
     bad = (parsed.isna() & given).to_numpy()
+    if bad.any() and fmt is not None and fmt.endswith("%M"):  # the same with seconds
+        seconds = pd.to_datetime(values.where(bad), format=f"{fmt}:%S", errors="coerce")
+        parsed = parsed.where(~bad, seconds)
+        bad = (parsed.isna() & given).to_numpy()
     if not bad.any():
         return parsed
     row = int(np.flatnonzero(bad)[0])
@@ -194,7 +209,9 @@ def read_episodes(path: str | Path, form: HistoryFormat | None = None) -> pd.Dat
     frame = _read_table(path, ("admitted_at", "discharged_at"))
     fmt = form.timestamp_format
     admitted = _parse_times(path, "admitted_at", frame["admitted_at"], fmt, dates_only=False)
-    discharged = _parse_times(path, "discharged_at", frame["discharged_at"], fmt, dates_only=False)
+    still_in = frame["discharged_at"].str.lower().isin(STILL_IN_MARKERS)
+    discharges = frame["discharged_at"].where(~still_in, "")
+    discharged = _parse_times(path, "discharged_at", discharges, fmt, dates_only=False)
     if admitted.isna().any():
         row = int(np.flatnonzero(admitted.isna().to_numpy())[0])
         raise PlannerError(f"{path}: line {row + 2}: admitted_at is empty")
