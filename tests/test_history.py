@@ -328,3 +328,22 @@ def test_exports_as_they_come_still_in_markers_seconds_and_windows_text(tmp_path
     ]
     assert episodes["discharged_at"].iloc[0] == pd.Timestamp("2026-11-03 12:00:15")
     assert episodes["discharged_at"].iloc[1:].isna().all()
+
+
+def test_a_file_of_several_wards_is_refused(tmp_path):
+    # Common practice: one ward's plan from one ward's records; a whole-hospital export read
+    # as one ward gave a 100% chance of no free bed without a word.
+    text = (
+        "admitted_at,discharged_at,ward\n"
+        "2026-11-01 10:00,2026-11-03 12:00,Larch\n"
+        "2026-11-02 09:00,,Rowan\n"
+        "2026-11-02 11:00,,Larch\n"
+    )
+    with pytest.raises(PlannerError) as error:
+        read_episodes(write(tmp_path, text, "episodes.csv"))
+    assert str(error.value) == (
+        f"{tmp_path / 'episodes.csv'}: column ward names 2 wards (Larch, Rowan); planner reads "
+        "one ward's records: export the ward to plan, or one file per ward"
+    )
+    one_ward = text.replace("Rowan", "Larch")
+    assert len(read_episodes(write(tmp_path, one_ward, "one.csv"))) == 3

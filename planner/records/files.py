@@ -116,7 +116,22 @@ def _read_table(path: Path, columns: tuple[str, ...]) -> pd.DataFrame:
         )
     if frame.empty:
         raise PlannerError(f"{path}: no data rows below the header")
+    _check_one_ward(path, frame)
     return frame[list(columns)].fillna("").apply(lambda column: column.str.strip())
+
+
+def _check_one_ward(path: Path, frame: pd.DataFrame) -> None:
+    """Refuse a file whose ``ward`` column names several wards: its rows would be read as one
+    ward's (a whole-hospital export taken for a single ward)."""
+    if "ward" not in frame.columns:
+        return
+    wards = sorted({str(v).strip() for v in frame["ward"].fillna("")} - {""})
+    if len(wards) > 1:
+        shown = ", ".join(wards[:5]) + (", ..." if len(wards) > 5 else "")
+        raise PlannerError(
+            f"{path}: column ward names {len(wards)} wards ({shown}); planner reads one "
+            f"ward's records: export the ward to plan, or one file per ward"
+        )
 
 
 def _parse_times(
