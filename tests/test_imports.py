@@ -1,7 +1,7 @@
 """Heavy libraries are imported where they are used: the command line's start and its help load
-none of matplotlib, statsmodels, scipy.stats, pandas and numpy; `planner check` none of the
-first three; a run on the demo (empirical stays) neither statsmodels nor scipy.stats. Each
-check runs in a fresh interpreter and reads its sys.modules."""
+none of matplotlib, statsmodels, scipy.stats, simpy, numba, pandas and numpy; `planner check`
+none of the first five; a run on the demo (empirical stays) neither statsmodels nor
+scipy.stats. Each check runs in a fresh interpreter and reads its sys.modules."""
 
 from __future__ import annotations
 
@@ -11,7 +11,7 @@ import sys
 
 import pytest
 
-HEAVY = ("matplotlib", "statsmodels", "scipy.stats", "pandas", "numpy")
+HEAVY = ("matplotlib", "statsmodels", "scipy.stats", "simpy", "numba", "pandas", "numpy")
 
 LOADED = "import json, sys; print(json.dumps([m for m in {heavy!r} if m in sys.modules]))"
 
@@ -61,4 +61,4 @@ def test_the_modules_of_a_run_load_neither_statsmodels_nor_scipy_stats():
         "plan = load_scenario(None)\n"
         "ward_model(plan, load_history(plan))\n"
     )
-    assert loaded_after(code) == ["matplotlib", "pandas", "numpy"]
+    assert loaded_after(code) == ["matplotlib", "simpy", "numba", "pandas", "numpy"]

@@ -97,7 +97,7 @@ def design(
 
 #: Largest relative change the refinement step may make before the normal equations are
 #: judged too ill-conditioned and the SVD solution is used instead.
-_REFINED_WITHIN = 1e-10
+REFINED_WITHIN = 1e-10
 
 
 def least_squares(X: np.ndarray, y: np.ndarray) -> np.ndarray:
@@ -115,7 +115,7 @@ def least_squares(X: np.ndarray, y: np.ndarray) -> np.ndarray:
     coefficients = coefficients + step
     size = np.abs(coefficients).max(initial=0.0)
     if not np.all(np.isfinite(coefficients)) or np.abs(step).max(initial=0.0) > (
-        _REFINED_WITHIN * size
+        REFINED_WITHIN * size
     ):
         return np.linalg.lstsq(X, y, rcond=None)[0]
     return coefficients

@@ -114,26 +114,11 @@ def backtest_path_count(n_paths: int, settings) -> int:
     return max(1, min(n_paths, settings.backtest_paths))
 
 
-def backtest_arrays(
-    values: np.ndarray,
-    dates: pd.DatetimeIndex,
-    terms,
-    settings,
-    horizon: int,
-    n_paths: int,
-    rng: np.random.Generator,
-    columns: tuple[str, ...] | None = None,
-) -> BacktestResult:
-    """Backtest on ``values`` (admissions per day on ``dates``) with deterministic ``terms``
-    (only ``columns`` of them if given, e.g. without a holiday column that is empty in sample)."""
-    inputs = BacktestInputs.build(values, dates, terms, horizon, columns)
-    return backtest_inputs(inputs, settings, n_paths, rng)
-
-
 def backtest_inputs(
     inputs: BacktestInputs, settings, n_paths: int, rng: np.random.Generator
 ) -> BacktestResult:
-    """The backtest of :func:`backtest_arrays` on inputs already built."""
+    """The rolling-origin backtest on ``inputs`` (:class:`BacktestInputs`: the history, its
+    calendar terms over the history and the horizon, and the horizon)."""
     values, dates, names, horizon = inputs.values, inputs.dates, inputs.names, inputs.horizon
     n = values.shape[0]
     positions = origin_positions(n, settings, horizon)

@@ -34,11 +34,8 @@ import numpy as np
 from numpy.lib.stride_tricks import as_strided, sliding_window_view
 
 from planner.errors import PlannerError
-from planner.forecast.ar import constant_only, fit_ar
+from planner.forecast.ar import REFINED_WITHIN, constant_only, fit_ar
 from planner.forecast.lags import lag_matrix
-
-#: As ``planner.forecast.ar._REFINED_WITHIN``: the largest relative refinement step accepted.
-REFINED_WITHIN = 1e-10
 
 
 def direct_regressions(

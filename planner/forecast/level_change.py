@@ -27,12 +27,12 @@ import numpy as np
 import pandas as pd
 
 from planner.errors import PlannerError
+from planner.forecast.requirements import fit_lag
 
 
 def days_before_needed(settings, forecast_days: int) -> tuple[int, str]:
     """Days of history a change inside it needs before its date, and how they are made up."""
-    lag = settings.order if settings.order is not None else settings.max_lag
-    name = "order" if settings.order is not None else "max_lag"
+    lag, name = fit_lag(settings)
     return lag + forecast_days, f"{name} {lag} + {forecast_days} forecast days"
 
 

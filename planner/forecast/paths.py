@@ -96,12 +96,7 @@ def model_paths(
     steps = step_columns(names)
     if strategy == "recursive":
         point = recursive_point(one_step, values, future_deterministic)
-        if steps and not settings.refit:  # the refits carry the step's uncertainty already
-            drawn = drawn_deterministic(one_step, values, deterministic, steps, n_paths, rng)
-            paths = recursive_paths(
-                one_step, values, future_deterministic, n_paths, rng, residual_pool, drawn
-            )
-        elif settings.refit:
+        if settings.refit:  # the refits carry a level step's uncertainty already
             paths = refit_recursive_paths(
                 one_step,
                 values,
@@ -113,11 +108,16 @@ def model_paths(
                 residual_pool,
             )
         else:
+            drawn = (
+                drawn_deterministic(one_step, values, deterministic, steps, n_paths, rng)
+                if steps
+                else None
+            )
             paths = recursive_paths(
-                one_step, values, future_deterministic, n_paths, rng, residual_pool
+                one_step, values, future_deterministic, n_paths, rng, residual_pool, drawn
             )
         return StrategyPaths(strategy, paths, point, one_step)
-    direct = fit_direct(values, one_step.order, horizon, deterministic, names, engine="numpy")
+    direct = fit_direct(values, one_step.order, horizon, deterministic)
     point = direct_point(direct, values, future_deterministic)
     errors = centred(direct.aligned_residuals() if error_paths is None else error_paths)
     paths = direct_paths(point, errors, n_paths, rng)

@@ -21,11 +21,19 @@ BACKTEST_SPARE_DAYS = 30
 FIT_SPARE_DAYS = 14
 
 
+def fit_lag(settings) -> tuple[int, str]:
+    """The largest lag a fit uses and the key that sets it: the fixed ``order``, else
+    ``max_lag``."""
+    if settings.order is not None:
+        return settings.order, "order"
+    return settings.max_lag, "max_lag"
+
+
 def fit_days(settings, forecast_days: int, history_days: int, direct: bool) -> tuple[int, str]:
     """Days a one-step fit (or, with ``direct``, a fit for every horizon day up to
     ``forecast_days``) needs: 2 x lag + k + 14 (+ forecast days), lag the fixed order or
     max_lag, k the calendar columns."""
-    lag = settings.order if settings.order is not None else settings.max_lag
+    lag, name = fit_lag(settings)
     annual = settings.annual is True or (
         settings.annual == "auto" and history_days >= ANNUAL_AUTO_DAYS
     )
@@ -34,7 +42,6 @@ def fit_days(settings, forecast_days: int, history_days: int, direct: bool) -> t
         1 + 6 * bool(settings.weekday) + 2 * settings.fourier_pairs * annual
         + bool(settings.trend) + holiday
     )  # fmt: skip
-    name = "order" if settings.order is not None else "max_lag"
     days = 2 * lag + columns + FIT_SPARE_DAYS
     reason = f"2 x {name} {lag} + {columns} calendar terms + {FIT_SPARE_DAYS} spare"
     if direct:

@@ -17,7 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from planner.errors import PlannerError
-from planner.forecast.ar import ArFit, fit_ar
+from planner.forecast.ar import ArFit
 from planner.forecast.direct_fit import direct_regressions
 
 
@@ -93,29 +93,16 @@ def recursive_point(fit: ArFit, last_values, future_deterministic) -> np.ndarray
 
 
 def fit_direct(
-    values,
-    order: int,
-    horizon: int,
-    deterministic: np.ndarray | None = None,
-    names: tuple[str, ...] | None = None,
-    engine: str = "numpy",
+    values, order: int, horizon: int, deterministic: np.ndarray | None = None
 ) -> DirectFit:
-    """Fit the direct regressions for ``h = 1 .. horizon`` at one common ``order``."""
+    """Fit the direct regressions for ``h = 1 .. horizon`` at one common ``order``, solved
+    together (:func:`planner.forecast.direct_fit.direct_regressions`)."""
     values = np.asarray(values, dtype=float)
     if len(values) - order - horizon + 1 < 2:
         raise PlannerError(
             f"history: {len(values)} days are too few for order {order} and horizon {horizon}"
         )
-    if engine == "numpy":
-        return DirectFit(order, *direct_regressions(values, order, horizon, deterministic))
-    fits = [
-        fit_ar(values, order, deterministic, names, horizon=h, hold_back=order, engine=engine)
-        for h in range(1, horizon + 1)
-    ]
-    residuals = np.zeros((horizon, len(values) - order))
-    for row, fit in enumerate(fits):
-        residuals[row, : fit.nobs] = fit.residuals
-    return DirectFit(order, np.array([fit.coefficients for fit in fits]), residuals)
+    return DirectFit(order, *direct_regressions(values, order, horizon, deterministic))
 
 
 def direct_point(direct: DirectFit, last_values, future_deterministic) -> np.ndarray:

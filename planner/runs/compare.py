@@ -89,5 +89,8 @@ def compare_scenarios(files: list[Path], options: RunOptions, progress=None) -> 
     if len(files) < 2:
         raise PlannerError("compare: give at least two scenario files")
     runs = run_all(files, options, progress)
-    plans = [PlanPaths(run.scenario.name, run.scenario.costs, run.weekly) for run in runs]
+    plans = [
+        PlanPaths(run.scenario.name, run.scenario.costs, run.weekly, run.summary.weekly)
+        for run in runs
+    ]
     return Comparison(runs, comparison_table(plans), cost_table(plans), glance_table(plans))

@@ -96,8 +96,7 @@ def hindcast_origin(
     options = RunOptions(paths=paths, seed=run_seed, engine=engine)
     ward = simulate_step(ward_model(scenario, known), forecast.paths, options)
     days = scenario.horizon_days
-    simulated = ward.daily["census"].to_numpy().reshape(paths, days)
-    beds = ward.daily["beds_open"].to_numpy()[:days]
+    simulated, beds = ward.census, ward.beds_open[:days]
     dates = pd.date_range(origin, periods=days, freq="D")
     scored = int(np.count_nonzero(dates <= census.index[-1]))
     simulated, beds, dates = simulated[:, :scored], beds[:scored], dates[:scored]

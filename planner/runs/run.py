@@ -22,7 +22,7 @@ from planner.records.files import (
 from planner.records.ward_history import WardHistory
 from planner.results import RunResult, RunSummary
 from planner.scenario import Scenario, load_scenario
-from planner.simulate.model import RunOptions, WardModel
+from planner.simulate.model import RunOptions, WardModel, beds_open_by_day
 from planner.summaries.daily import summarise_daily, summarise_shifts
 from planner.summaries.weekly import outlook, weekly_paths, weekly_table
 
@@ -75,8 +75,6 @@ def check_patients_fit_beds(scenario: Scenario, history: WardHistory) -> None:
     the message names the largest recorded census and its day."""
     if history.episodes is None or scenario.history_format.over_beds == "allow":
         return
-    from planner.simulate.ward import beds_open_by_day
-
     patients = history.inpatients_elapsed().size
     beds = int(beds_open_by_day(scenario.ward, history.first_day.date(), 1)[0])
     if patients <= beds:

@@ -221,7 +221,7 @@ def cell_counts(days: dict[str, np.ndarray], pooled_from: int) -> tuple[np.ndarr
     pooled = np.bincount(((weekday[long, None] + r) % 7).ravel(), per_residue.ravel(), 7)
     at_risk[top] = np.rint(pooled).astype(np.int64)
     stay_day = days["stay_day"]
-    cells = np.minimum(stay_day, top) * 7 + (days["weekday"][days["ended"]] + stay_day) % 7
+    cells = np.minimum(stay_day, top) * 7 + days["discharge_weekday"]
     events = np.bincount(cells, minlength=7 * (top + 1)).reshape(top + 1, DAYS_PER_WEEK)
     return at_risk, events
 

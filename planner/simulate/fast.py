@@ -19,17 +19,12 @@ grow with the beds beyond the heap's logarithm.
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
-
 import numpy as np
 
 from planner.simulate.compiled import compiled
+from planner.simulate.model import WardModel, beds_open_by_day, check_arrivals
 from planner.simulate.result import WardResult, ward_result
 from planner.simulate.sampling import DrawnInputs, draw_inputs
-from planner.simulate.ward import beds_open_by_day, check_arrivals
-
-if TYPE_CHECKING:
-    from planner.simulate.model import WardModel
 
 #: Most new patients whose random inputs are held at once: a chunk of paths is drawn and
 #: simulated in blocks of about this many patients (about 50 MB of inputs), so memory does not

@@ -1,4 +1,4 @@
-"""The ward a run simulates, and how the run is carried out.
+"""The ward a run simulates, its beds over time, and how the run is carried out.
 
 :class:`WardModel` is built once per plan from the scenario and the ward's records: the beds
 over time, the overflow policy and the nurse rota (:class:`WardSettings`), the length of stay,
@@ -14,7 +14,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
-from datetime import date
+from datetime import date, timedelta
 
 import numpy as np
 
@@ -81,3 +81,27 @@ class RunOptions:
             seed=seed if self.seed is None else self.seed,
             engine=engine if self.engine is None else self.engine,
         )
+
+
+def beds_open_by_day(ward: WardSettings, start: date, days: int) -> np.ndarray:
+    """Beds open on each of ``days`` days from ``start``: base beds plus the changes in force."""
+    if int(ward.beds) != ward.beds or ward.beds < 0:
+        raise PlannerError(f"beds must be a whole number >= 0, got {ward.beds!r}")
+    beds = np.full(days, int(ward.beds), dtype=np.int64)
+    for change in ward.bed_changes:
+        first = max((change.start - start).days, 0)
+        last = min((change.end - start).days, days - 1)
+        if first <= last:
+            beds[first : last + 1] += int(change.change)
+    if np.any(beds < 0):
+        day = start + timedelta(days=int(np.argmax(beds < 0)))
+        raise PlannerError(f"bed_changes: beds open would be negative on {day}")
+    return beds.astype(np.int32)
+
+
+def check_arrivals(arrivals: np.ndarray) -> None:
+    """Refuse daily arrivals that are not a (paths x days) array of whole numbers >= 0."""
+    if arrivals.ndim != 2 or arrivals.shape[1] == 0:
+        raise PlannerError("arrivals must be a (paths x days) array with at least one day")
+    if np.any(arrivals < 0) or not np.all(arrivals == np.round(arrivals)):
+        raise PlannerError("arrivals must be whole numbers >= 0")

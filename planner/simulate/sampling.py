@@ -33,6 +33,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from planner.simulate.compiled import compiled
+from planner.simulate.lookup import UnitSearch
 
 if TYPE_CHECKING:
     from planner.simulate.model import WardModel
@@ -127,10 +128,8 @@ def arrival_hours(
     days = counts.shape[1]
     last_moment = np.nextafter((np.arange(days) + 1) * 24.0, 0)
     cdf = cumulative_profile(profile)
-    edges = np.arange(HOUR_BUCKETS + 1) / HOUR_BUCKETS
-    first = np.searchsorted(cdf, edges[:-1], "right")
-    last = np.searchsorted(cdf, np.nextafter(edges[1:], 0), "right")
-    table = np.where(first == last, first, -1)
+    # The hour for each bucket of uniforms, or -1 where it changes inside the bucket.
+    table = UnitSearch(cdf, "right", bits=HOUR_BUCKETS.bit_length() - 1).table[:-1]
     out = np.empty(int(counts.sum()))
     _arrival_hours(pairs, skip, counts, cdf, table, last_moment, out)
     return out

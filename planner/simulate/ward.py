@@ -35,46 +35,15 @@ For every path: current inpatients + arrivals = discharges + in beds at end + di
 
 from __future__ import annotations
 
-from datetime import date, timedelta
-from typing import TYPE_CHECKING
-
 import numpy as np
 import simpy
 
-from planner.errors import PlannerError
+from planner.simulate.model import WardModel, beds_open_by_day, check_arrivals
 from planner.simulate.result import PATH_DAILY, WardResult, ward_result
 from planner.simulate.sampling import DrawnInputs, draw_inputs
-from planner.simulate.settings import WardSettings
-
-if TYPE_CHECKING:
-    from planner.simulate.model import WardModel
 
 #: Request priorities: a closure goes before every waiting patient.
 CLOSURE, PATIENT = 0, 1
-
-
-def beds_open_by_day(ward: WardSettings, start: date, days: int) -> np.ndarray:
-    """Beds open on each of ``days`` days from ``start``: base beds plus the changes in force."""
-    if int(ward.beds) != ward.beds or ward.beds < 0:
-        raise PlannerError(f"beds must be a whole number >= 0, got {ward.beds!r}")
-    beds = np.full(days, int(ward.beds), dtype=np.int64)
-    for change in ward.bed_changes:
-        first = max((change.start - start).days, 0)
-        last = min((change.end - start).days, days - 1)
-        if first <= last:
-            beds[first : last + 1] += int(change.change)
-    if np.any(beds < 0):
-        day = start + timedelta(days=int(np.argmax(beds < 0)))
-        raise PlannerError(f"bed_changes: beds open would be negative on {day}")
-    return beds.astype(np.int32)
-
-
-def check_arrivals(arrivals: np.ndarray) -> None:
-    """Refuse daily arrivals that are not a (paths x days) array of whole numbers >= 0."""
-    if arrivals.ndim != 2 or arrivals.shape[1] == 0:
-        raise PlannerError("arrivals must be a (paths x days) array with at least one day")
-    if np.any(arrivals < 0) or not np.all(arrivals == np.round(arrivals)):
-        raise PlannerError("arrivals must be whole numbers >= 0")
 
 
 def _run_path(arrival_hours, stay_days, remaining_days, beds_open, divert):

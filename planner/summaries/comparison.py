@@ -22,7 +22,7 @@ import pandas as pd
 
 from planner.schema import default
 from planner.summaries.monte_carlo import paired_difference
-from planner.summaries.weekly import HEADLINE_WEEKS, WeeklyPaths, any_shortfall, weekly_table
+from planner.summaries.weekly import WeeklyPaths, any_shortfall, outlook
 
 MEASURES = {
     "p_bed_shortfall": "bed_shortfall",
@@ -44,20 +44,21 @@ class Costs:
 
 @dataclass(frozen=True)
 class PlanPaths:
-    """One plan of a comparison: its name, unit costs and weekly measures per path."""
+    """One plan of a comparison: its name, unit costs, weekly measures per path and its
+    weekly table (:func:`planner.summaries.weekly.weekly_table` of them)."""
 
     name: str
     costs: Costs
     weekly: WeeklyPaths
+    table: pd.DataFrame
 
 
 def comparison_table(plans: list[PlanPaths]) -> pd.DataFrame:
     """comparison.csv: per plan and week, the measures and differences to the first."""
-    base = plans[0].weekly
-    base_table = weekly_table(base)
+    base, base_table = plans[0].weekly, plans[0].table
     frames = []
     for number, plan in enumerate(plans):
-        weekly = weekly_table(plan.weekly)
+        weekly = plan.table
         frame = pd.DataFrame({"scenario": plan.name, "week_start": weekly["week_start"]})
         for measure, field in MEASURES.items():
             frame[measure] = weekly[measure]
@@ -110,17 +111,15 @@ def cost_table(plans: list[PlanPaths]) -> pd.DataFrame | None:
 def glance_table(plans: list[PlanPaths]) -> pd.DataFrame:
     """One row per plan: chance of any bed shortfall in the first weeks and over the
     horizon, and expected patients affected over the horizon, with the paired difference."""
-    base = plans[0].weekly
+    base_affected = plans[0].weekly.patients_affected.sum(axis=1)[:, None]
     rows = []
     for plan in plans:
         weekly = plan.weekly
-        weeks = min(HEADLINE_WEEKS, weekly.bed_shortfall.shape[1])
-        early, early_se = any_shortfall(weekly, weeks)
+        first = outlook(weekly)
+        weeks, early, early_se = first.weeks, first.p_bed_shortfall, first.p_bed_shortfall_se
         whole, _ = any_shortfall(weekly, weekly.bed_shortfall.shape[1])
         affected = weekly.patients_affected.sum(axis=1)
-        change, change_se = paired_difference(
-            base.patients_affected.sum(axis=1)[:, None], affected[:, None]
-        )
+        change, change_se = paired_difference(base_affected, affected[:, None])
         rows.append(
             {
                 "scenario": plan.name,

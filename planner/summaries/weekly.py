@@ -75,17 +75,20 @@ def weekly_paths(result: WardResult, start: date | pd.Timestamp | None = None) -
     beds = grid(result.beds_open[None, :])
     rostered = grid(result.nurses_rostered[None, :, :]).sum(axis=2)
     weeks = (result.days - skip) // 7
+    patients_affected = _weeks(affected, "sum")
+    short_shifts = _weeks(short_grid, "sum")
+    bed_days = _weeks(beds, "sum")[0]
     return WeeklyPaths(
         week_start=pd.date_range(start, periods=weeks, freq="7D"),
-        bed_shortfall=_weeks(affected, "sum") > 0,
-        patients_affected=_weeks(affected, "sum"),
+        bed_shortfall=patients_affected > 0,
+        patients_affected=patients_affected,
         diverted=_weeks(grid(result.diverted), "sum"),
         wait_hours=_weeks(grid(result.wait_hours), "sum"),
         peak_census=_weeks(grid(result.peak_occupancy), "max"),
-        staff_shortfall=_weeks(short_grid, "sum") > 0,
-        short_shifts=_weeks(short_grid, "sum"),
-        beds_open=_weeks(beds, "sum")[0] / 7.0,
-        bed_days=_weeks(beds, "sum")[0],
+        staff_shortfall=short_shifts > 0,
+        short_shifts=short_shifts,
+        beds_open=bed_days / 7.0,
+        bed_days=bed_days,
         nurse_shifts=_weeks(rostered, "sum")[0],
     )
 
