@@ -29,6 +29,7 @@ from planner.schema import TABLES, TOP
 from planner.schema_checks import validate
 from planner.simulate.settings import (
     BedChange,
+    DischargeSettings,
     RosterOverride,
     Shift,
     StaffingSettings,
@@ -61,6 +62,7 @@ class Scenario:
     engine: str
     resolved: dict[str, Any] = field(repr=False, compare=False)
     history_format: HistoryFormat = field(default_factory=HistoryFormat)
+    discharge: DischargeSettings = field(default_factory=DischargeSettings)
 
     @property
     def horizon_days(self) -> int:
@@ -265,6 +267,32 @@ def _stay(document: dict[str, Any], where: str) -> StaySettings:
     )
 
 
+def _discharge(document: dict[str, Any], where: str, calendar_possible: bool) -> DischargeSettings:
+    """The ``[discharge]`` table (``calendar_possible``: episodes are given and stay.mean is
+    not). "auto" is kept: it is resolved when the episodes are fitted."""
+    values = _table(document, "discharge")
+    timing, earlier, seven_day = values["timing"], values["earlier_hours"], values["seven_day"]
+    if earlier > 23:
+        raise PlannerError(f"{where}: discharge.earlier_hours: must be 0 to 23, got {earlier}")
+    if seven_day > 1:
+        raise PlannerError(f"{where}: discharge.seven_day: must be 0 to 1, got {seven_day}")
+    if timing == "calendar" and not calendar_possible:
+        raise PlannerError(
+            f'{where}: discharge.timing: "calendar" learns discharges from history.episodes '
+            f"and cannot be used with stay.mean or without episodes"
+        )
+    if (earlier or seven_day) and (timing == "continuous" or not calendar_possible):
+        lever = "earlier_hours" if earlier else "seven_day"
+        raise PlannerError(
+            f"{where}: discharge.{lever}: acts on calendar discharge timing, which this "
+            f"scenario does not use (it needs history.episodes, no stay.mean and "
+            f'discharge.timing "auto" or "calendar")'
+        )
+    if timing == "auto" and not calendar_possible:
+        timing = "continuous"
+    return DischargeSettings(timing, int(earlier), float(seven_day))
+
+
 def load_scenario(path: str | Path | None = None) -> Scenario:
     """Read, merge and validate a scenario file (default: the bundled demo)."""
     path = demo_scenario_path() if path is None else Path(path)
@@ -301,5 +329,8 @@ def load_scenario(path: str | Path | None = None) -> Scenario:
             history["timestamp_format"],
             history["fill_missing_days"],
             history["over_beds"],
+        ),
+        discharge=_discharge(
+            document, where, history["episodes"] is not None and stay.mean is None
         ),
     )

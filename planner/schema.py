@@ -290,6 +290,41 @@ TABLES = (
         ),
     ),
     Table(
+        "discharge",
+        "When patients leave: a stay as a duration, or discharges that follow the calendar "
+        "and the clock, learned from the episodes, and levers that change them.",
+        (
+            Key(
+                "timing",
+                "str",
+                "auto",
+                "calendar: the day of stay of each discharge from a hazard by day of stay "
+                "with a weekday effect and its clock time from the weekday's discharge hours, "
+                "both learned from history.episodes; continuous: a stay drawn as a duration "
+                "from the bed time ([stay]); auto: calendar when history.episodes is given and "
+                "stay.mean is not, else continuous.",
+                choices=("auto", "calendar", "continuous"),
+            ),
+            Key(
+                "earlier_hours",
+                "int",
+                0,
+                "Calendar timing: every discharge this many hours earlier on the same day "
+                "(0-23; none before 00:00).",
+                "hours",
+                minimum=0,
+            ),
+            Key(
+                "seven_day",
+                "float",
+                0.0,
+                "Calendar timing: the Saturday and Sunday discharge rates moved this share "
+                "(0-1) of the way to the weekday rate; 1 discharges as on weekdays.",
+                minimum=0.0,
+            ),
+        ),
+    ),
+    Table(
         "beds",
         "Beds and what happens when none is free.",
         (

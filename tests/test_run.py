@@ -82,6 +82,7 @@ def test_run_command_writes_the_report(ward_folder, tmp_path):
         "census.png",
         "shortfall.png",
         "nurses.png",
+        "discharges.png",
     }
     assert expected <= {p.name for p in out.iterdir()}
     weekly = pd.read_csv(out / "weekly.csv")

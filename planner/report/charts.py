@@ -53,6 +53,8 @@ DATES = Margins(bottom=0.6)
 TWO_LINES_AND_LABEL = Margins(bottom=0.85, right=0.25)
 #: One-line tick labels and an axis label.
 LABEL = Margins(bottom=0.6, right=0.3)
+#: Two panels side by side, each with one-line tick labels and axis labels.
+SIDE_BY_SIDE = Margins(bottom=0.6, right=0.3, wspace=0.3)
 
 
 def title(axes: plt.Axes, text: str, **style) -> None:
@@ -231,3 +233,31 @@ def comparison_chart(comparison: pd.DataFrame) -> bytes:
     panels[0].set_ylabel("probability")
     panels[0].legend(fontsize=8, loc="upper left")
     return png(figure, LABEL)
+
+
+def discharge_pattern(daily: pd.DataFrame, hour_profile: np.ndarray | None) -> bytes:
+    """Mean simulated discharges by weekday (daily.csv's ``expected_discharges``) and, with
+    calendar discharge timing (``hour_profile``: (7, 24) shares by weekday), the share of
+    discharges by hour on weekdays and at weekends."""
+    panels = 1 if hour_profile is None else 2
+    figure, axes = plt.subplots(1, panels, figsize=(10, 3.6), squeeze=False)
+    weekday = pd.to_datetime(daily["date"]).dt.day_of_week
+    by_weekday = daily["expected_discharges"].groupby(weekday).mean().reindex(range(7))
+    names = ["Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun"]
+    axes[0, 0].bar(names, by_weekday.to_numpy(), color=BAND, alpha=0.8)
+    axes[0, 0].set_ylabel("discharges a day (mean)")
+    title(axes[0, 0], "Simulated discharges by weekday")
+    if hour_profile is not None:
+        edges = np.arange(25)
+        for rows, label, colour in ((slice(0, 5), "Monday-Friday", LINE),
+                                    (slice(5, 7), "Saturday-Sunday", GREY)):  # fmt: skip
+            share = hour_profile[rows].mean(axis=0)
+            axes[0, 1].stairs(100 * share, edges, color=colour, label=label)
+        axes[0, 1].set_xticks(range(0, 25, 3))
+        axes[0, 1].set_xlabel("hour of the day")
+        axes[0, 1].set_ylabel("% of the day's discharges")
+        axes[0, 1].legend(loc="upper left", fontsize=8)
+        title(axes[0, 1], "Discharges by hour")
+    for panel in axes[0]:
+        panel.grid(axis="y", alpha=0.3)
+    return png(figure, SIDE_BY_SIDE)

@@ -10,6 +10,7 @@ from planner.report import charts, html
 from planner.report.files import run_record, write_csv, write_json
 from planner.report.html import CACHED_BACKTEST
 from planner.results import HindcastQuote, RunResult
+from planner.simulate.discharge_fit import describe_discharges
 
 WEEKLY_NOTE = (
     "<p>Probabilities are shares of the simulated paths, with their Monte Carlo standard "
@@ -196,11 +197,17 @@ def assumptions(run: RunResult, hindcast: HindcastQuote | None = None) -> list[t
         )
     items += [
         ("Length of stay", run.model.stays.describe()),
+        ("Discharges", describe_discharges(run.model.discharges, run.model.timing_note)),
         ("Current inpatients", _inpatients(run)),
         *_ward_plan(run.scenario),
         ("Hindcast", hindcast_line(hindcast)),
     ]
     return items
+
+
+def _hours(run: RunResult):
+    """The discharge hour profile (7, 24) of calendar timing, else None."""
+    return None if run.model.discharges is None else run.model.discharges.hour_profile
 
 
 def write_run_files(run: RunResult, folder: Path, hindcast: HindcastQuote | None = None) -> None:
@@ -216,6 +223,7 @@ def write_run_files(run: RunResult, folder: Path, hindcast: HindcastQuote | None
         "census.png": charts.census_fan(daily, run.summary.recent_census),
         "shortfall.png": charts.shortfall_probabilities(weekly),
         "nurses.png": charts.nurses_against_roster(shifts),
+        "discharges.png": charts.discharge_pattern(daily, _hours(run)),
     }
     for name, png in pictures.items():
         (folder / name).write_bytes(png)
@@ -255,6 +263,7 @@ def run_page(
         ("Census against beds", html.image(pictures["census.png"], "census fan chart")),
         ("Admissions", html.image(pictures["admissions.png"], "admissions fan chart")),
         ("Nurses", html.image(pictures["nurses.png"], "nurses required against rostered")),
+        ("Discharges", html.image(pictures["discharges.png"], "discharges by weekday and hour")),
         ("Key assumptions", html.facts(assumptions(run, hindcast))),
     ]
     return html.page(f"Ward plan: {scenario.name}", sections, subtitle)

@@ -22,6 +22,11 @@ from planner.records.files import (
 from planner.records.ward_history import WardHistory
 from planner.results import RunResult, RunSummary
 from planner.scenario import Scenario, load_scenario
+from planner.simulate.discharge_fit import (
+    DischargeTiming,
+    describe_discharges,
+    fit_discharge_timing,
+)
 from planner.simulate.model import RunOptions, WardModel, beds_open_by_day
 from planner.summaries.daily import summarise_daily, summarise_shifts
 from planner.summaries.weekly import outlook, weekly_paths, weekly_table
@@ -108,6 +113,7 @@ def check_scenario(path: Path | None) -> list[str]:
             f"episodes: {len(history.episodes)}, {len(history.inpatients_elapsed())} on the "
             f"ward at the start"
         )
+    lines.append(f"discharges: {describe_discharges(*discharge_timing(scenario, history))}")
     return lines
 
 
@@ -163,20 +169,54 @@ def backtest_step(scenario: Scenario, history: WardHistory, paths: int, seed: in
 
 
 def ward_model(scenario: Scenario, history: WardHistory) -> WardModel:
-    """The simulated ward: the scenario's beds, policy and rota, with the length of stay, the
-    patients on the ward and the hour-of-day profile learned from the history."""
+    """The simulated ward: the scenario's beds, policy and rota, with the length of stay (and
+    with calendar timing the discharges' days and hours), the patients on the ward and the
+    hour-of-day profile learned from the history."""
     from planner.simulate.arrivals import hour_profile
     from planner.simulate.stay_fit import stay_distribution
 
     stays, observed = history.stays()
     admitted = None if history.episodes is None else history.episodes["admitted_at"]
+    discharges, note = discharge_timing(scenario, history)
     return WardModel(
         start=history.first_day.date(),
         settings=scenario.ward,
         stays=stay_distribution(scenario.stay, stays, observed),
         inpatients_elapsed=history.inpatients_elapsed(),
         hour_profile=hour_profile(admitted),
+        discharges=discharges,
+        timing_note=note,
     )
+
+
+def discharge_timing(
+    scenario: Scenario, history: WardHistory
+) -> tuple[DischargeTiming | None, str]:
+    """The calendar discharge timing learned from the episodes known at the start, with the
+    scenario's stay changes and levers, or None for stays as durations; and a note when
+    ``discharge.timing = "auto"`` found the episodes too few for calendar timing.
+    stay.change_days and stay.scale act on the mean stay in nights: (fitted mean +
+    change_days) x scale."""
+    settings = scenario.discharge
+    if settings.timing == "continuous":
+        return None, ""
+    try:
+        timing = fit_discharge_timing(history.episodes, history.first_day)
+    except PlannerError as error:
+        if settings.timing == "auto" and not settings.levers:
+            return None, f"stays drawn as durations: calendar discharge timing not fitted ({error})"
+        raise PlannerError(
+            f"{scenario.episodes_file}: {error}; or set discharge.timing = "
+            f'"continuous" to draw stays as durations'
+        ) from None
+    change = scenario.stay
+    if change.change_days != 0.0 or change.scale != 1.0:
+        timing = timing.with_mean_nights((timing.mean_stay + change.change_days) * change.scale)
+    if settings.seven_day:
+        timing = timing.seven_day(settings.seven_day)
+    if settings.earlier_hours:
+        timing = timing.earlier(settings.earlier_hours)
+    return timing, ""
 
 
 def simulate_step(model: WardModel, arrivals: np.ndarray, options: RunOptions):

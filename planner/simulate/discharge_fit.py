@@ -37,8 +37,10 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 import pandas as pd
+from scipy.optimize import brentq
 
 from planner.errors import PlannerError
+from planner.simulate.logit_fit import newton_fit
 
 DAYS_PER_WEEK = 7
 HOURS_PER_DAY = 24
@@ -50,9 +52,6 @@ POOLED_FROM_DAY = 21
 MINIMUM_PER_DAY = 10
 #: Weight of the pooled hour profile in each weekday's profile, in discharges.
 PROFILE_PSEUDO_DISCHARGES = 24
-#: Newton-Raphson stops when no coefficient moves more than this (logit units).
-TOLERANCE = 1e-10
-MOST_ITERATIONS = 100
 #: The arrays of a DischargeTiming, copied and made read-only.
 ARRAYS = ("alpha", "beta", "covariance", "hour_profile", "pooled_profile", "discharges_by_weekday")
 
@@ -120,12 +119,34 @@ class DischargeTiming:
         staying = np.prod(1.0 - self.hazard(self.pooled_from, np.arange(DAYS_PER_WEEK)))
         return float(survival[: self.pooled_from].sum() + last_week.sum() / (1.0 - staying))
 
+    @property
+    def mean_stay(self) -> float:
+        """Mean day of stay of the discharge (nights), averaged over admission weekdays."""
+        return float(np.mean([self.mean_nights(day) for day in range(DAYS_PER_WEEK)]))
+
+    def with_mean_nights(self, nights: float) -> DischargeTiming:
+        """Stays lengthened or shortened to a mean of ``nights`` (:attr:`mean_stay`) by one
+        change of every day's discharge odds (the same amount added to each ``alpha``), which
+        keeps the weekday effects and the hours."""
+        if not nights > 0:
+            raise PlannerError(f"stay change: the mean stay would be {nights:.2f} nights; need > 0")
+
+        def gap(shift: float) -> float:
+            return replace(self, alpha=self.alpha + shift).mean_stay - nights
+
+        low, high = -30.0, 30.0
+        if gap(low) < 0 or gap(high) > 0:
+            raise PlannerError(f"stay change: cannot reach a mean stay of {nights:.2f} nights")
+        shift = brentq(gap, low, high, xtol=1e-12)
+        levers = (*self.levers, f"mean stay changed to {nights:.1f} nights")
+        return replace(self, alpha=self.alpha + shift, levers=levers)
+
     def describe(self) -> str:
         """One line for reports: the weekend's discharge odds against weekdays', the share of
         discharges 12:00-18:00 and the mean stay (nights, averaged over admission weekdays)."""
         weekend = math.exp(self.beta[WEEKEND].mean() - self.beta[:5].mean())
         afternoon = self.pooled_profile[12:18].sum()
-        nights = np.mean([self.mean_nights(day) for day in range(DAYS_PER_WEEK)])
+        nights = self.mean_stay
         return "; ".join((
             f"discharge hazard by day of stay (days 0-{self.pooled_from - 1} each, "
             f"{self.pooled_from}+ pooled) with a weekday effect: weekend discharge odds "
@@ -153,6 +174,14 @@ class DischargeTiming:
         beta[WEEKEND] += fraction * (beta[:5].mean() - beta[WEEKEND])
         levers = (*self.levers, f"seven-day discharging {fraction:.0%}")
         return replace(self, beta=beta, levers=levers)
+
+
+def describe_discharges(timing: DischargeTiming | None, note: str = "") -> str:
+    """How a ward model draws discharges, in one line for the terminal and the reports:
+    ``timing`` (None: stays as durations) and the note on why, if any."""
+    if timing is not None:
+        return f"calendar timing learned from the episodes: {timing.describe()}"
+    return note or "stays drawn as durations from the bed time (discharge.timing)"
 
 
 def _shift_earlier(profiles: np.ndarray, hours: int) -> np.ndarray:
@@ -240,41 +269,6 @@ def usable_pooled_from(at_risk: np.ndarray, events: np.ndarray) -> int:
         f"discharge timing: only {discharged[1:].sum()} discharges after the admission day; "
         f"need at least {MINIMUM_PER_DAY}"
     )
-
-
-def _log_likelihood(logit: np.ndarray, at_risk: np.ndarray, events: np.ndarray) -> float:
-    """Sum over cells of y log h + (n - y) log(1 - h), nats (the patient-day rows')."""
-    return float(-events @ np.logaddexp(0, -logit) - (at_risk - events) @ np.logaddexp(0, logit))
-
-
-def _information(design: np.ndarray, at_risk: np.ndarray, coef: np.ndarray):
-    """Hazards of the cells and the Fisher information X' diag(n h (1 - h)) X at ``coef``."""
-    h = 1.0 / (1.0 + np.exp(-np.clip(design @ coef, -700, 700)))
-    return h, design.T @ (design * (at_risk * h * (1 - h))[:, None])
-
-
-def newton_fit(
-    design: np.ndarray, at_risk: np.ndarray, events: np.ndarray, start: np.ndarray
-) -> tuple[np.ndarray, np.ndarray, float]:
-    """Binomial logit maximum likelihood on cells (rows of ``design``, ``at_risk`` trials,
-    ``events`` successes) by Newton-Raphson with step halving; returns the coefficients,
-    the inverse Fisher information at them and the log-likelihood (nats)."""
-    coef = start.astype(float)
-    best = _log_likelihood(design @ coef, at_risk, events)
-    for _ in range(MOST_ITERATIONS):
-        h, information = _information(design, at_risk, coef)
-        try:
-            step = np.linalg.solve(information, design.T @ (events - at_risk * h))
-        except np.linalg.LinAlgError:
-            break
-        value = _log_likelihood(design @ (coef + step), at_risk, events)
-        while value < best - 1e-12 * abs(best) and np.max(np.abs(step)) >= TOLERANCE:
-            step = step / 2
-            value = _log_likelihood(design @ (coef + step), at_risk, events)
-        coef, best = coef + step, value
-        if np.max(np.abs(step)) < TOLERANCE:
-            return coef, np.linalg.inv(_information(design, at_risk, coef)[1]), best
-    raise PlannerError("discharge timing: the fit did not converge; too few discharges")
 
 
 def fit_discharge_timing(

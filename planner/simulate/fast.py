@@ -22,6 +22,7 @@ from __future__ import annotations
 import numpy as np
 
 from planner.simulate.compiled import compiled
+from planner.simulate.discharge_times import DischargeTables, discharge_at
 from planner.simulate.model import WardModel, beds_open_by_day, check_arrivals
 from planner.simulate.result import WardResult, ward_result
 from planner.simulate.sampling import DrawnInputs, draw_inputs
@@ -78,14 +79,26 @@ def _pop(heap, size):  # pragma: no cover - compiled
 
 
 @compiled
+def _leave(bed_hour, k, stays, clock, timing):  # pragma: no cover - compiled
+    """Hour of the discharge of new patient ``k`` who took a bed at ``bed_hour``: the stay
+    added, or with calendar discharges the drawn discharge time (as bed hour plus the time to
+    it, the sum the SimPy model's timeout makes)."""
+    calendar, tables = timing
+    if calendar:
+        return bed_hour + (discharge_at(bed_hour, stays[k], clock[k], tables) - bed_hour)
+    return bed_hour + 24.0 * stays[k]
+
+
+@compiled
 def _simulate_block(inputs, ward, records):  # pragma: no cover - compiled
     """Simulate every path of a block. ``inputs``: (offsets, arrival hours, stay days,
-    remaining days) as in ``DrawnInputs``; ``ward``: (beds open per day, shift start hours in
-    increasing order, True for policy "wait"); ``records``: (counts (paths, days, 8) in the
+    remaining days, clock uniforms) as in ``DrawnInputs``; ``ward``: (beds open per day, shift
+    start hours in increasing order, True for policy "wait", (True for calendar discharges,
+    their tables)); ``records``: (counts (paths, days, 8) in the
     order of ``COUNTED``, wait hours (paths, days), shift peaks (paths, days, shifts) in the
     order of the start hours), filled in."""
-    offsets, arrivals, stays, remaining = inputs
-    beds_open, starts, wait = ward
+    offsets, arrivals, stays, remaining, clock = inputs
+    beds_open, starts, wait, timing = ward
     counts, wait_hours, shift_peak = records
     paths, days = wait_hours.shape
     shifts = starts.size
@@ -138,7 +151,7 @@ def _simulate_block(inputs, ward, records):  # pragma: no cover - compiled
                         head += 1
                         level += 1
                         counts[p, day, _BED_ADMISSIONS] += 1
-                        size = _push(heap, size, boundary + 24.0 * stays[k])
+                        size = _push(heap, size, _leave(boundary, k, stays, clock, timing))
                         day_peak = max(day_peak, level)
                         shift_level = max(shift_level, level)
                 continue  # beds given at 00:00 may leave before the event at t
@@ -152,7 +165,7 @@ def _simulate_block(inputs, ward, records):  # pragma: no cover - compiled
                     queue_wait[head] = t - arrivals[k]
                     head += 1
                     counts[p, day, _BED_ADMISSIONS] += 1
-                    size = _push(heap, size, t + 24.0 * stays[k])
+                    size = _push(heap, size, _leave(t, k, stays, clock, timing))
                 else:
                     level -= 1
             else:
@@ -160,7 +173,7 @@ def _simulate_block(inputs, ward, records):  # pragma: no cover - compiled
                 if level < beds:
                     level += 1
                     counts[p, day, _BED_ADMISSIONS] += 1
-                    size = _push(heap, size, t + 24.0 * stays[a])
+                    size = _push(heap, size, _leave(t, a, stays, clock, timing))
                     day_peak = max(day_peak, level)
                     shift_level = max(shift_level, level)
                 elif wait:
@@ -188,11 +201,24 @@ def _records(inputs: DrawnInputs, model: WardModel, beds: np.ndarray, out, at: i
     ward = model.settings
     starts = np.sort([shift.start_hour for shift in ward.staffing.shifts])
     rows = slice(at, at + inputs.paths)
+    arrays = (inputs.offsets, inputs.arrival_hours, inputs.stay_days, inputs.remaining_days,
+              inputs.clock_uniforms)  # fmt: skip
     _simulate_block(
-        (inputs.offsets, inputs.arrival_hours, inputs.stay_days, inputs.remaining_days),
-        (beds, np.asarray(starts, dtype=float), ward.policy == "wait"),
+        arrays,
+        (beds, np.asarray(starts, dtype=float), ward.policy == "wait", _timing(model)),
         tuple(array[rows] for array in out),
     )
+
+
+#: Stand-in tables for a model whose stays are durations (the loop's types stay the same).
+_NO_TABLES = (np.ones((7, 8)), np.float64(0.5), np.zeros((7, 25)), np.int64(0))
+
+
+def _timing(model: WardModel):
+    """(True and the discharge tables) for calendar discharges, else (False, stand-ins)."""
+    if model.discharges is None:
+        return (False, _NO_TABLES)
+    return (True, DischargeTables.build(model.discharges, model.start.weekday()).arrays())
 
 
 def _result(model: WardModel, first_path: int, beds: np.ndarray, out) -> WardResult:

@@ -1,10 +1,11 @@
 """The ward a run simulates, its beds over time, and how the run is carried out.
 
 :class:`WardModel` is built once per plan from the scenario and the ward's records: the beds
-over time, the overflow policy and the nurse rota (:class:`WardSettings`), the length of stay,
-the patients on the ward when the simulation starts and the hour-of-day profile of emergency
-arrivals. Every engine takes it with the forecast paths of daily admissions. A plan that changes
-only beds or the rota reuses the same fitted stays with :meth:`WardModel.with_settings`.
+over time, the overflow policy and the nurse rota (:class:`WardSettings`), the length of stay
+(a duration, or discharges that follow the calendar and the clock), the patients on the ward
+when the simulation starts and the hour-of-day profile of emergency arrivals. Every engine
+takes it with the forecast paths of daily admissions. A plan that changes only beds or the
+rota reuses the same fitted stays with :meth:`WardModel.with_settings`.
 
 :class:`RunOptions` says how a run is carried out (paths, seed, engine, processes, cluster,
 progress); the engine, ``jobs`` and the cluster change the run time, never the numbers.
@@ -20,6 +21,7 @@ import numpy as np
 
 from planner.errors import PlannerError
 from planner.schema import choices
+from planner.simulate.discharge_fit import DischargeTiming
 from planner.simulate.settings import WardSettings
 from planner.simulate.stays import StayDistribution
 
@@ -29,13 +31,19 @@ class WardModel:
     """The simulated ward. ``start``: first simulated day (the simulation starts at its 00:00);
     ``settings``: beds, dated bed changes, overflow policy and staffing; ``stays``: length of
     stay (days); ``inpatients_elapsed``: days already spent by each patient in a bed at the
-    start; ``hour_profile``: share of a day's emergency arrivals in each hour (24 values)."""
+    start; ``hour_profile``: share of a day's emergency arrivals in each hour (24 values);
+    ``discharges``: None when a stay is a duration from the bed time (drawn from ``stays``),
+    else the discharge timing that gives each patient's discharge day and clock time
+    (:mod:`planner.simulate.discharge_times`; ``stays`` then only describes the ward);
+    ``timing_note``: why stays are durations when calendar timing was asked for by default."""
 
     start: date
     settings: WardSettings
     stays: StayDistribution
     inpatients_elapsed: np.ndarray = field(default_factory=lambda: np.zeros(0))
     hour_profile: np.ndarray = field(default_factory=lambda: np.full(24, 1 / 24))
+    discharges: DischargeTiming | None = None
+    timing_note: str = ""
 
     def __post_init__(self) -> None:
         elapsed = np.asarray(self.inpatients_elapsed, dtype=float)

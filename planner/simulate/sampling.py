@@ -13,7 +13,15 @@ fewer admissions changes only what it must (common random numbers across plans):
   as ``Generator.choice`` with probabilities does) and the time within the hour;
 * position ``STREAM_SPACING``: the stays of new patients, the k-th in order of arrival time
   from the k-th draw, so patient k of a path keeps its stay when a plan changes beds or the
-  rota.
+  rota;
+* position ``2 * STREAM_SPACING``, only when discharges follow the calendar (the model's
+  ``discharges``): the clock-time uniforms of the discharges, one per patient on the ward at
+  the start, then one per new patient in order of arrival time.
+
+With calendar discharges the first uniform of a patient (the one that gives a stay in the
+continuous model) draws the day of stay of the discharge instead and the second its clock
+time (:mod:`planner.simulate.discharge_times`): the patients on the ward get their discharge
+times here, the new patients' are made by the engines when each takes a bed.
 
 Uniforms are ``Generator.random`` doubles in [0, 1), written straight into the block's arrays;
 stays and remaining stays invert the survival function at 1 - u, in (0, 1]. Stay distributions
@@ -27,12 +35,13 @@ Both engines read :class:`DrawnInputs` and draw nothing themselves.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
 
 import numpy as np
 
 from planner.simulate.compiled import compiled
+from planner.simulate.discharge_times import DischargeTables, remaining_days
 from planner.simulate.lookup import UnitSearch
 
 if TYPE_CHECKING:
@@ -51,15 +60,18 @@ class DrawnInputs:
 
     ``offsets``: (paths + 1,) path ``i``'s new patients are entries ``offsets[i]`` to
     ``offsets[i + 1]`` of ``arrival_hours`` (hours since 00:00 of the first day, increasing
-    within a path) and ``stay_days`` (their stays, days > 0, in the same order);
-    ``remaining_days``: (paths, inpatients) remaining stays of the patients on the ward at the
-    start (days > 0), in the model's order."""
+    within a path) and ``stay_days`` (their stays, days > 0, in the same order; with calendar
+    discharges their uniforms for the day of stay instead); ``remaining_days``: (paths,
+    inpatients) remaining stays of the patients on the ward at the start (days > 0), in the
+    model's order; ``clock_uniforms``: with calendar discharges, the new patients' uniforms for
+    the clock time of their discharges (else empty)."""
 
     first_path: int
     offsets: np.ndarray
     arrival_hours: np.ndarray
     stay_days: np.ndarray
     remaining_days: np.ndarray
+    clock_uniforms: np.ndarray = field(default_factory=lambda: np.zeros(0))
 
     @property
     def paths(self) -> int:
@@ -151,7 +163,11 @@ def draw_inputs(
     first_stream = np.empty(starts[-1])
     stay_u = np.empty(offsets[-1])
     base = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)
-    by_uniforms = stays.inverse_transform
+    calendar = model.discharges is not None
+    by_uniforms = calendar or stays.inverse_transform
+    # Calendar discharges: path i's clock-time uniforms (inpatients', then new patients') are
+    # entries starts[i] - offsets[i] to starts[i + 1] - offsets[i + 1] of ``clock``.
+    clock = np.empty(starts[-1] - offsets[-1] if calendar else 0)
     bounds = zip(starts[:-1].tolist(), starts[1:].tolist(), offsets[:-1].tolist(),
                  offsets[1:].tolist(), strict=True)  # fmt: skip
     for i, (begin, end, lo, hi) in enumerate(bounds):
@@ -163,14 +179,32 @@ def draw_inputs(
             draw.random(out=stay_u[lo:hi])
         else:
             stay_u[lo:hi] = stays.sample(draw, hi - lo)
-    stay_days = stays.from_uniforms(1.0 - stay_u) if by_uniforms else stay_u
-    remaining_u = first_stream[starts[:-1, None] + np.arange(inpatients)]
+        if calendar:
+            bits.advance(STREAM_SPACING - (hi - lo))
+            draw.random(out=clock[begin - lo : end - hi])
+    remaining_u = first_stream[starts[:-1, None] + np.arange(inpatients)].ravel()
     elapsed = np.tile(model.inpatients_elapsed, paths)
-    remaining = stays.remaining_from_uniforms(1.0 - remaining_u.ravel(), elapsed)
+    hours = arrival_hours(first_stream, counts, model.hour_profile, inpatients)
+    if not calendar:
+        return DrawnInputs(
+            first_path=first_path,
+            offsets=offsets,
+            arrival_hours=hours,
+            stay_days=stays.from_uniforms(1.0 - stay_u) if by_uniforms else stay_u,
+            remaining_days=stays.remaining_from_uniforms(1.0 - remaining_u, elapsed).reshape(
+                paths, inpatients
+            ),
+        )
+    clock_start = (starts - offsets)[:-1, None]
+    inpatient_clock = clock[clock_start + np.arange(inpatients)].ravel()
+    new_clock = np.delete(clock, (clock_start + np.arange(inpatients)).ravel())
+    tables = DischargeTables.build(model.discharges, model.start.weekday())
+    remaining = remaining_days(tables, elapsed, remaining_u, inpatient_clock)
     return DrawnInputs(
         first_path=first_path,
         offsets=offsets,
-        arrival_hours=arrival_hours(first_stream, counts, model.hour_profile, inpatients),
-        stay_days=stay_days,
+        arrival_hours=hours,
+        stay_days=stay_u,
         remaining_days=remaining.reshape(paths, inpatients),
+        clock_uniforms=new_clock,
     )

@@ -64,6 +64,22 @@ class StaffingSettings:
 
 
 @dataclass(frozen=True)
+class DischargeSettings:
+    """When patients leave (the ``[discharge]`` table). ``timing``: "auto", "calendar" or
+    "continuous"; ``earlier_hours``: calendar discharges moved earlier on their day (0-23);
+    ``seven_day``: share (0-1) of the way the weekend discharge rates move to the weekdays'."""
+
+    timing: str = default("discharge.timing")
+    earlier_hours: int = default("discharge.earlier_hours")
+    seven_day: float = default("discharge.seven_day")
+
+    @property
+    def levers(self) -> bool:
+        """True when a lever changes the learned discharge timing."""
+        return self.earlier_hours != 0 or self.seven_day != 0.0
+
+
+@dataclass(frozen=True)
 class StaySettings:
     """Length of stay. ``model``: "empirical" (resample the episode stays), "lognormal",
     "gamma", "weibull", "exponential", or "best" (the parametric fit with the lowest AIC).

@@ -38,6 +38,7 @@ from __future__ import annotations
 import numpy as np
 import simpy
 
+from planner.simulate.discharge_times import DischargeTables, discharge_at
 from planner.simulate.model import WardModel, beds_open_by_day, check_arrivals
 from planner.simulate.result import PATH_DAILY, WardResult, ward_result
 from planner.simulate.sampling import DrawnInputs, draw_inputs
@@ -46,8 +47,9 @@ from planner.simulate.sampling import DrawnInputs, draw_inputs
 CLOSURE, PATIENT = 0, 1
 
 
-def _run_path(arrival_hours, stay_days, remaining_days, beds_open, divert):
-    """Run one path in SimPy until the end of the window (hours).
+def _run_path(arrival_hours, stay_hours, remaining_days, beds_open, divert):
+    """Run one path in SimPy until the end of the window (hours). ``stay_hours(number, now)``:
+    hours from taking a bed at ``now`` to the discharge of new patient ``number``.
 
     Returns the occupancy log (hours and changes in occupied beds, +1 or -1, after a first
     entry at hour -1 holding the patients in beds at the start), the patients (numbered in
@@ -69,7 +71,7 @@ def _run_path(arrival_hours, stay_days, remaining_days, beds_open, divert):
         changed(-1)
         release(bed)
 
-    def patient(env, number, arrive, stay):
+    def patient(env, number, arrive):
         yield timeout(arrive)  # from time 0, so env.now is the drawn hour exactly
         if divert and (len(users) >= capacity or queue):  # every bed taken, or a closure waits
             no_bed.append(number)
@@ -82,7 +84,7 @@ def _run_path(arrival_hours, stay_days, remaining_days, beds_open, divert):
             bed_hour.append(env.now)
         logged(env.now)
         changed(1)
-        yield timeout(stay)
+        yield timeout(stay_hours(number, env.now))
         logged(env.now)
         changed(-1)
         release(bed)
@@ -112,9 +114,8 @@ def _run_path(arrival_hours, stay_days, remaining_days, beds_open, divert):
     for hours in (24.0 * remaining_days).tolist():
         process(inpatient(env, hours))
     process(change_beds(env, *changes[0]))
-    stays = (24.0 * stay_days).tolist()
-    for number, (arrive, stay) in enumerate(zip(arrival_hours.tolist(), stays, strict=True)):
-        process(patient(env, number, arrive, stay))
+    for number, arrive in enumerate(arrival_hours.tolist()):
+        process(patient(env, number, arrive))
     env.run(until=24.0 * beds_open.size)
     return log_hour, log_change, no_bed, from_queue, bed_hour
 
@@ -126,6 +127,18 @@ def _levels_and_peaks(times, levels, boundaries):
     index = np.searchsorted(times, boundaries, side="left") - 1
     within = np.maximum.reduceat(levels[: index[-1] + 1], index[:-1])
     return levels[index], np.maximum(within, levels[index[1:]])
+
+
+def _stay_hours(inputs: DrawnInputs, i: int, tables):
+    """``stay_hours(number, now)`` of the block's path ``i`` (see :func:`_run_path`): the
+    drawn stay, or with calendar discharges (``tables`` not None) the time to the discharge
+    drawn for a bed taken at ``now`` (:func:`planner.simulate.discharge_times.discharge_at`)."""
+    lo, hi = inputs.offsets[i], inputs.offsets[i + 1]
+    if tables is None:
+        stays = (24.0 * inputs.stay_days[lo:hi]).tolist()
+        return lambda number, now: stays[number]
+    day_u, clock_u = inputs.stay_days[lo:hi].tolist(), inputs.clock_uniforms[lo:hi].tolist()
+    return lambda number, now: discharge_at(now, day_u[number], clock_u[number], tables) - now
 
 
 def simulate_drawn(inputs: DrawnInputs, model: WardModel, days: int) -> WardResult:
@@ -150,10 +163,13 @@ def simulate_drawn(inputs: DrawnInputs, model: WardModel, days: int) -> WardResu
     def per_day(day, weights=None):
         return np.bincount(day, weights=weights, minlength=days)
 
+    tables = None
+    if model.discharges is not None:
+        tables = DischargeTables.build(model.discharges, model.start.weekday()).arrays()
     for i in range(paths):
-        hours, stay_days, remaining_days = inputs.path(i)
+        hours, _, remaining_days = inputs.path(i)
         log_hour, log_change, no_bed, from_queue, bed_hour = _run_path(
-            hours, stay_days, remaining_days, beds, divert
+            hours, _stay_hours(inputs, i, tables), remaining_days, beds, divert
         )
         log_hour, log_change = np.array(log_hour), np.array(log_change)
         levels = np.cumsum(log_change)

@@ -36,13 +36,14 @@ def _quantile_columns(values: np.ndarray, measure: str) -> dict[str, np.ndarray]
 def summarise_daily(result: WardResult) -> pd.DataFrame:
     """One row per day: date, beds_open, census and peak_occupancy quantiles (patients),
     p_no_bed (share of paths in which some patient that day found no free bed: waited or
-    diverted), expected_waited, expected_diverted (patients), expected_wait_hours (hours)."""
+    diverted), expected_waited, expected_diverted (patients), expected_wait_hours (hours),
+    expected_admissions and expected_discharges (patients arriving, and leaving beds)."""
     table = {"date": result.dates.astype("datetime64[s]")}
     table["beds_open"] = result.beds_open.astype(np.int32)
     table |= _quantile_columns(_by_day(result.census), "census")
     table |= _quantile_columns(_by_day(result.peak_occupancy), "peak_occupancy")
     table["p_no_bed"] = _by_day((result.waited + result.diverted) > 0).mean(axis=1)
-    for column in ("waited", "diverted", "wait_hours"):
+    for column in ("waited", "diverted", "wait_hours", "admissions", "discharges"):
         table[f"expected_{column}"] = _by_day(getattr(result, column)).mean(axis=1)
     return pd.DataFrame(table)
 
