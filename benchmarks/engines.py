@@ -4,9 +4,10 @@ Run from the repository root: ``PYTHONPATH=. python benchmarks/engines.py``. Num
 threads do not matter here (no linear algebra); set OPENBLAS_NUM_THREADS=1 to rule them out.
 
 Wards: the demo ward is the bundled demo's (``scenarios/baseline.toml``): its beds, staffing
-and policy, its recorded stays (Kaplan-Meier) and current inpatients, with Poisson arrivals at
-its mean rate; the 30- and 300-bed wards are synthetic (lognormal stays, 85% occupancy), and
-an overloaded 300-bed ward (150 admissions a day, mean stay 1.8 days) is run end to end.
+and policy, its recorded stays (Kaplan-Meier), its calendar discharge timing and current
+inpatients, with Poisson arrivals at its mean rate (also run with stays as durations); the
+30- and 300-bed wards are synthetic (lognormal stays, 85% occupancy), and an overloaded
+300-bed ward (150 admissions a day, mean stay 1.8 days) is run end to end.
 
 Rows:
 - reference: a minimal SimPy loop of the same ward ("wait" policy), one process per patient
@@ -37,6 +38,7 @@ import subprocess
 import sys
 import time
 import tracemalloc
+from dataclasses import replace
 from datetime import date
 
 import numpy as np
@@ -46,6 +48,7 @@ from planner.allocator import keep_freed_memory
 from planner.runs.run import load_history, ward_model
 from planner.scenario import load_scenario
 from planner.simulate import fast, sampling
+from planner.simulate.discharge_fit import describe_discharges
 from planner.simulate.engines import simulate
 from planner.simulate.model import RunOptions, WardModel
 from planner.simulate.settings import WardSettings
@@ -297,10 +300,15 @@ def main():
     model, rate = _demo_ward()
     stays, inpatients = model.stays.describe(), model.inpatients_elapsed.size
     print(f"demo ward: {model.settings.beds} beds, {rate:.1f} admissions/day (Poisson), recorded "
-          f"stays ({stays}), {inpatients} patients on the ward at the start")  # fmt: skip
+          f"stays ({stays}), {inpatients} patients on the ward at the start, discharges: "
+          f"{describe_discharges(model.discharges, model.timing_note)}")  # fmt: skip
     print_table(f"demo ward, {DAYS} days, 1,000 paths", ward_case(*demo_inputs(1000), 1000))
     print_table(f"demo ward, {DAYS} days, 10,000 paths (fast only)",
                 ward_case(*demo_inputs(10_000), 0))  # fmt: skip
+    arrivals, model = demo_inputs(10_000)
+    print_table(f"demo ward with stays as durations (discharge.timing = continuous), {DAYS} "
+                f"days, 10,000 paths (fast only)",
+                ward_case(arrivals, replace(model, discharges=None), 0))  # fmt: skip
     for beds, paths, simpy_paths in ((30, 1000, 300), (300, 300, 30)):
         rate = OCCUPANCY * beds / MEAN_STAY
         title = f"{beds} beds, {rate:.1f}/day (occupancy ~{OCCUPANCY:.0%}), lognormal stays"

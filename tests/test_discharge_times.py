@@ -94,6 +94,27 @@ def test_day_of_stay_inverts_the_survival_function(first):
             assert got == want, (w, value)
 
 
+def test_new_patients_day_and_hour_from_the_bucket_tables():
+    # Source: inversion as above, for a new patient: the day of stay is the number of values
+    # of 1 - S_w(k) (k = 0, 1, ...) at or below u, found by brute force over 600 days; the
+    # clock time of a later day is the hour profile inverted (clock_time, checked above).
+    discharges = timing()
+    tables = DischargeTables.build(discharges, 0)
+    rng = np.random.default_rng(8)
+    bed = rng.uniform(0, 24 * 14, 20_000)
+    u, v = rng.random(bed.size), rng.random(bed.size)
+    u[:50] = 1.0 - 1e-9  # far into the pooled weeks
+    leave = discharge_hours(tables, bed, u, v)
+    day = np.floor(bed / 24).astype(int)
+    curves = [1.0 - survival(ALPHA, BETA, w, 600) for w in range(7)]
+    want = np.array([np.sum(curves[d % 7] <= x) for d, x in zip(day, u, strict=True)])
+    np.testing.assert_array_equal(np.floor(leave / 24).astype(int) - day, want)
+    later = want > 0
+    clock = [clock_time(tables.hour_cdf, (d + k) % 7, 0.0, x)
+             for d, k, x in zip(day[later], want[later], v[later], strict=True)]  # fmt: skip
+    np.testing.assert_allclose(leave[later] % 24, clock, rtol=0, atol=1e-9)
+
+
 def test_day_of_stay_shares_are_the_hazard_model():
     # Source: definition of the discrete-time hazard: P(discharge on day k) = S(k-1) - S(k).
     tables = DischargeTables.build(timing(), 0)

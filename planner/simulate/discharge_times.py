@@ -18,7 +18,10 @@ day they came whatever the hour; it is not lowered for a late admission.
 The discharge is at 24 (A + k) + x. :class:`DischargeTables` holds S_w(k) for days of stay 0 to
 K + 6 (K the first pooled day); later days repeat the pooled week: S_w(K + j + 7 q) =
 S_w(K + j) r^q with r the chance of staying through a pooled week, so the search beyond the
-table is in closed form.
+table is in closed form. For a new patient the day of stay within the table is read as the
+number of entries of 1 - S_w(k) at or below u, and the hour of a discharge not bound by a bed
+time as the number of the weekday's cumulative hour shares at or below v, both from bucket
+tables (:class:`planner.simulate.lookup.UnitSearch`) in one read for most uniforms.
 """
 
 from __future__ import annotations
@@ -27,13 +30,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from planner.simulate.compiled import compiled
+from planner.simulate.compiled import compiled, compiled_inline
 from planner.simulate.discharge_fit import DAYS_PER_WEEK, HOURS_PER_DAY, DischargeTiming
+from planner.simulate.lookup import UnitSearch
 
 #: The last moment of a day, hours: a discharge drawn at 24:00 is kept in its own day.
 LAST_HOUR = float(np.nextafter(24.0, 0.0))
 #: Cumulative shares closer than this to 1 count as nothing left after a bed time.
 NOTHING_LEFT = 1e-12
+#: Buckets of the tables that give the day of stay and the hour for a uniform in one read.
+BUCKET_BITS = 10
 
 
 @dataclass(frozen=True, eq=False)
@@ -41,12 +47,17 @@ class DischargeTables:
     """What the compiled draws read. ``survival``: (7, K + 7) S_w(k) for admission weekday w
     (0 = Monday) and days of stay 0..K+6; ``week_stay``: r, the chance of staying through a
     pooled week; ``hour_cdf``: (7, 25) cumulative share of a weekday's discharges before each
-    hour 0..24; ``first_weekday``: the weekday of simulated day 0."""
+    hour 0..24; ``first_weekday``: the weekday of simulated day 0; ``day_table`` and
+    ``hour_table``: (7, buckets) for each bucket of uniforms, the number of entries of
+    1 - S_w and of ``hour_cdf[w, 1:]`` at or below every uniform in it, or -1 where that
+    changes inside the bucket."""
 
     survival: np.ndarray
     week_stay: float
     hour_cdf: np.ndarray
     first_weekday: int
+    day_table: np.ndarray
+    hour_table: np.ndarray
 
     @classmethod
     def build(cls, timing: DischargeTiming, first_weekday: int) -> DischargeTables:
@@ -59,15 +70,23 @@ class DischargeTables:
         hour_cdf = np.zeros((DAYS_PER_WEEK, HOURS_PER_DAY + 1))
         hour_cdf[:, 1:] = np.cumsum(profile, axis=1)
         hour_cdf[:, -1] = 1.0
-        return cls(survival, week_stay, hour_cdf, int(first_weekday))
+        day_table = np.array([_buckets(1.0 - row) for row in survival])
+        hour_table = np.array([_buckets(row[1:]) for row in hour_cdf])
+        return cls(survival, week_stay, hour_cdf, int(first_weekday), day_table, hour_table)
 
     def arrays(self):
         """The tables as the compiled draws take them."""
         return (self.survival, np.float64(self.week_stay), self.hour_cdf,
-                np.int64(self.first_weekday))  # fmt: skip
+                np.int64(self.first_weekday), self.day_table, self.hour_table)  # fmt: skip
 
 
-@compiled
+def _buckets(cumulative: np.ndarray) -> np.ndarray:
+    """For each bucket of uniforms in [0, 1): the number of ``cumulative`` entries at or below
+    every uniform in it, or -1 where that changes inside the bucket."""
+    return UnitSearch(cumulative, "right", bits=BUCKET_BITS).table[:-1]
+
+
+@compiled_inline
 def _survival(survival, week_stay, w, k):  # pragma: no cover - compiled
     """S_w(k) for any day of stay k >= -1 (S_w(-1) = 1)."""
     if k < 0:
@@ -116,7 +135,7 @@ def discharge_day(survival, week_stay, w, first, u):  # pragma: no cover - compi
     return best if best >= 0 else first + 100 * 365  # nobody ever leaves: a century
 
 
-@compiled
+@compiled_inline
 def clock_time(hour_cdf, weekday, after, v):  # pragma: no cover - compiled
     """Hours into the day of a discharge on ``weekday`` after hour ``after`` (0 for any time of
     the day), from the uniform ``v`` in [0, 1) (module docstring)."""
@@ -138,23 +157,50 @@ def clock_time(hour_cdf, weekday, after, v):  # pragma: no cover - compiled
     return min(max(x, after), LAST_HOUR)
 
 
-@compiled
+@compiled_inline
+def _new_day(survival, week_stay, day_table, w, u):  # pragma: no cover - compiled
+    """The day of stay of a new patient's discharge: the number of entries of 1 - S_w at or
+    below ``u`` within the table (one read for most u), else past it as
+    :func:`discharge_day`."""
+    k = day_table[w, int(u * day_table.shape[1])]
+    size = survival.shape[1]
+    if k < 0:  # the bucket holds a step: count exactly
+        low, high = 0, size
+        while low < high:
+            middle = (low + high) // 2
+            if 1.0 - survival[w, middle] <= u:
+                low = middle + 1
+            else:
+                high = middle
+        k = low
+    if k >= size:
+        return discharge_day(survival, week_stay, w, 0, u)
+    return k
+
+
+@compiled_inline
 def discharge_at(bed_hour, u, v, tables):  # pragma: no cover - compiled
     """Hour of the discharge of a patient who took a bed at ``bed_hour``, from the uniforms
     ``u`` (day of stay) and ``v`` (clock time); ``tables`` from
     :meth:`DischargeTables.arrays`."""
-    survival, week_stay, hour_cdf, first_weekday = tables
+    survival, week_stay, hour_cdf, first_weekday, day_table, hour_table = tables
     day = int(np.floor(bed_hour / 24.0))
     w = (first_weekday + day) % DAYS_PER_WEEK
-    k = discharge_day(survival, week_stay, w, 0, u)
-    after = bed_hour - 24.0 * day if k == 0 else 0.0
-    x = clock_time(hour_cdf, (w + k) % DAYS_PER_WEEK, after, v)
-    return 24.0 * (day + k) + x
+    k = _new_day(survival, week_stay, day_table, w, u)
+    weekday = (w + k) % DAYS_PER_WEEK
+    if k == 0:
+        return 24.0 * day + clock_time(hour_cdf, weekday, bed_hour - 24.0 * day, v)
+    hour = hour_table[weekday, int(v * hour_table.shape[1])]
+    if hour < 0:
+        return 24.0 * (day + k) + clock_time(hour_cdf, weekday, 0.0, v)
+    cdf = hour_cdf[weekday]
+    x = hour + (v - cdf[hour]) / (cdf[hour + 1] - cdf[hour])
+    return 24.0 * (day + k) + min(x, LAST_HOUR)
 
 
 @compiled
 def _remaining_hours(elapsed, u, v, tables, out):  # pragma: no cover - compiled
-    survival, week_stay, hour_cdf, first_weekday = tables
+    survival, week_stay, hour_cdf, first_weekday = tables[:4]
     for i in range(elapsed.size):
         admitted = -24.0 * elapsed[i]
         day = int(np.floor(admitted / 24.0))

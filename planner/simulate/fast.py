@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from planner.simulate.compiled import compiled
+from planner.simulate.compiled import compiled, compiled_inline
 from planner.simulate.discharge_times import DischargeTables, discharge_at
 from planner.simulate.model import WardModel, beds_open_by_day, check_arrivals
 from planner.simulate.result import WardResult, ward_result
@@ -37,7 +37,7 @@ COUNTED = ("census", "peak_occupancy", "admissions", "bed_admissions", "discharg
 _CENSUS, _PEAK, _ADMISSIONS, _BED_ADMISSIONS, _DISCHARGES, _WAITED, _DIVERTED, _QUEUE = range(8)
 
 
-@compiled
+@compiled_inline
 def _push(heap, size, value):  # pragma: no cover - compiled
     """Add ``value`` to the min-heap ``heap[:size]`` (4 children per entry: entry i's are
     4 i + 1 .. 4 i + 4); returns the new size."""
@@ -52,7 +52,7 @@ def _push(heap, size, value):  # pragma: no cover - compiled
     return size + 1
 
 
-@compiled
+@compiled_inline
 def _pop(heap, size):  # pragma: no cover - compiled
     """Remove the smallest entry of the 4-ary min-heap ``heap[:size]``; returns the new size.
     Four children per entry make the heap half as deep as a binary one: fewer of the
@@ -78,7 +78,7 @@ def _pop(heap, size):  # pragma: no cover - compiled
     return size
 
 
-@compiled
+@compiled_inline
 def _leave(bed_hour, k, stays, clock, timing):  # pragma: no cover - compiled
     """Hour of the discharge of new patient ``k`` who took a bed at ``bed_hour``: the stay
     added, or with calendar discharges the drawn discharge time (as bed hour plus the time to
@@ -211,7 +211,8 @@ def _records(inputs: DrawnInputs, model: WardModel, beds: np.ndarray, out, at: i
 
 
 #: Stand-in tables for a model whose stays are durations (the loop's types stay the same).
-_NO_TABLES = (np.ones((7, 8)), np.float64(0.5), np.zeros((7, 25)), np.int64(0))
+_NO_TABLES = (np.ones((7, 8)), np.float64(0.5), np.zeros((7, 25)), np.int64(0),
+              np.zeros((7, 1), np.int32), np.zeros((7, 1), np.int32))  # fmt: skip
 
 
 def _timing(model: WardModel):
