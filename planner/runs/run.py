@@ -104,10 +104,16 @@ def check_scenario(path: Path | None) -> list[str]:
         f"policy {scenario.ward.policy}",
     ]
     if history.episodes is not None:
+        methods = ""
+        if "method" in history.episodes:
+            counts = history.episodes["method"].value_counts()
+            methods = f" ({counts['emergency']} emergency, {counts['planned']} planned)"
         lines.append(
-            f"episodes: {len(history.episodes)}, {len(history.inpatients_elapsed())} on the "
-            f"ward at the start"
+            f"episodes: {len(history.episodes)}{methods}, {len(history.inpatients_elapsed())} "
+            f"on the ward at the start"
         )
+    for table in (history.admissions, history.episodes):
+        lines += [] if table is None else list(table.attrs.get("notes", ()))
     return lines
 
 
