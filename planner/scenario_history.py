@@ -7,6 +7,7 @@ from typing import Any
 
 from planner.errors import PlannerError
 from planner.records.files import HistoryFormat
+from planner.records.form import DAILY_FIELDS, EPISODE_FIELDS, OPTIONAL_FIELDS
 from planner.schema_checks import table_values
 
 
@@ -18,16 +19,18 @@ def _names(value: str | list[str] | None) -> tuple[str, ...]:
 
 
 def _check_columns(columns: dict[str, str], history: dict[str, Any], where: str) -> None:
-    """One field per column; a time from one column or from a date and a time column; a
+    """One field per column of a file (an episode field and a daily field may share a name:
+    they are read from different files); a time from one column or from a date and a time column; a
     mapped method column read by the method lists."""
-    seen: dict[str, str] = {}
-    for name, column in columns.items():
-        other = seen.setdefault(column.strip().lower(), name)
-        if other != name:
-            raise PlannerError(
-                f"{where}: history.columns.{name}: column {column!r} is also mapped to "
-                f"history.columns.{other}; give each field its own column"
-            )
+    for fields in (EPISODE_FIELDS + OPTIONAL_FIELDS, DAILY_FIELDS + OPTIONAL_FIELDS):
+        seen: dict[str, str] = {}
+        for name in (name for name in fields if name in columns):
+            other = seen.setdefault(columns[name].strip().lower(), name)
+            if other != name:
+                raise PlannerError(
+                    f"{where}: history.columns.{name}: column {columns[name]!r} is also mapped "
+                    f"to history.columns.{other}; give each field its own column"
+                )
     for moment in ("admitted", "discharged"):
         date, time = f"{moment}_date" in columns, f"{moment}_time" in columns
         if f"{moment}_at" in columns and (date or time):

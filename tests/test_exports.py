@@ -78,8 +78,10 @@ def test_workbook_gives_the_standard_episodes(tmp_path, standard):
     )
     path = write(tmp_path, "hospital.xlsx", book)
     for sheet in ("Episodes", "episodes", 2):
-        mapped = read_episodes(path, HistoryFormat(**{**LARCH.__dict__, "episodes_sheet": sheet}))
-        pd.testing.assert_frame_equal(mapped.drop(columns="method"), standard)
+        for fmt in (data.DAY_FIRST, None):  # date cells need no declared format
+            keys = {**LARCH.__dict__, "episodes_sheet": sheet, "timestamp_format": fmt}
+            mapped = read_episodes(path, HistoryFormat(**keys))
+            pd.testing.assert_frame_equal(mapped.drop(columns="method"), standard)
     # Dates typed as text in a workbook read as in a CSV file.
     text_rows = [data.HEADER] + [
         [
@@ -187,6 +189,7 @@ def test_check_reports_what_reading_did(tmp_path):
     larch = table[table["ward"] == "Larch"]
     emergencies = larch["method"].isin(["Emergency", "A&E"]).sum()
     assert f"episodes: 312 ({emergencies} emergency, {312 - emergencies} planned)" in result.output
+    assert "episodes: 312 (247 emergency, 65 planned)" in result.output  # README's example
     assert (
         f"{tmp_path / 'hospital.csv'}: 312 of {len(table)} rows read (ward Larch)" in result.output
     )
@@ -223,3 +226,29 @@ def test_hindcast_key_follows_the_ward_read(tmp_path):
     text = (tmp_path / "plan.toml").read_text().replace('ward = "Larch"', 'ward = "Rowan"', 1)
     (tmp_path / "plan.toml").write_text(text)
     assert scenario_key(load_scenario(tmp_path / "plan.toml")) != larch
+
+
+def test_an_episode_field_and_a_daily_field_may_share_a_column_name(tmp_path):
+    from planner.scenario import load_scenario
+
+    plan = export_plan(tmp_path)
+    text = (tmp_path / "plan.toml").read_text()
+    extra = 'patient = "Patient ID"\ndate = "Admission Date"\n'
+    (tmp_path / "plan.toml").write_text(text.replace('patient = "Patient ID"\n', extra))
+    form = load_scenario(plan).history_format
+    assert form.column("date") == form.column("admitted_at") == "Admission Date"
+
+
+def test_a_workbook_with_the_header_below_row_1_is_refused_naming_row_1(tmp_path):
+    from openpyxl import Workbook
+
+    book = Workbook()
+    book.active.title = "Export"
+    book.active["A3"], book.active["B3"] = "admitted_at", "discharged_at"
+    book.active["A4"] = "2026-01-01 08:00"
+    book.save(tmp_path / "e.xlsx")
+    with pytest.raises(PlannerError) as error:
+        read_episodes(tmp_path / "e.xlsx")
+    assert str(error.value) == (
+        f"{tmp_path / 'e.xlsx'}: sheet 'Export', row 1: is empty; the header belongs in row 1"
+    )

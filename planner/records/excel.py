@@ -91,10 +91,10 @@ def read_sheet_rows(path: Path, sheet: str | int | None, kind: str, form: Histor
 
 def _sheet_rows(chosen, path: Path, kind: str, form: HistoryFormat) -> Rows:
     source = Source(path, chosen.title)
-    cells = chosen.iter_rows(values_only=True)
+    cells = chosen.iter_rows(min_row=1, min_col=1, values_only=True)
     first = next(cells, None)
     if first is None or all(value is None for value in first):
-        raise PlannerError(f"{source}: the sheet is empty (the header belongs in row 1)")
+        raise PlannerError(f"{source.at(1)}: is empty; the header belongs in row 1")
     header = [cell_text(value, None) for value in first]
     positions = locate(source, header, kind, form)
     formats = _formats(form)

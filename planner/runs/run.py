@@ -84,7 +84,8 @@ def check_patients_fit_beds(scenario: Scenario, history: WardHistory) -> None:
         f"{scenario.episodes_file}: {patients} patients on the ward at 00:00 on "
         f"{history.first_day.date()} but {beds} beds open (beds.base = {scenario.ward.beds}); "
         f"the records reach a census of {int(census.max())} on {census.idxmax().date()}: does "
-        f"the file hold several wards? Give one ward's episodes, correct [beds], or set "
+        f"the file hold several wards? Name one with history.ward (or give one ward's "
+        f"episodes), correct [beds], or set "
         f'history.over_beds = "allow" if the ward really was over its beds'
     )
 
