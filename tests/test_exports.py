@@ -252,3 +252,21 @@ def test_a_workbook_with_the_header_below_row_1_is_refused_naming_row_1(tmp_path
     assert str(error.value) == (
         f"{tmp_path / 'e.xlsx'}: sheet 'Export', row 1: is empty; the header belongs in row 1"
     )
+
+
+def test_specialty_filter_gives_that_specialtys_episodes(tmp_path):
+    """Rowan is the only ward of Care of Older People: the specialty filter reads its rows."""
+    form = HistoryFormat(
+        timestamp_format=data.DAY_FIRST,
+        specialties=("care of older people",),
+        wards=("Rowan",),
+        columns=(
+            ("admitted_at", "Admission Date"),
+            ("discharged_at", "Discharge Date"),
+            ("specialty", "Specialty"),
+        ),
+    )
+    rowan = read_episodes(write(tmp_path, "hospital.csv", data.hospital_csv()), form)
+    standard = read_episodes(write(tmp_path, "rowan.csv", data.standard_csv("Rowan")))
+    pd.testing.assert_frame_equal(rowan, standard)
+    assert "(ward Rowan; specialty care of older people)" in rowan.attrs["notes"][0]
