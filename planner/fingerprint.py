@@ -17,6 +17,8 @@ if TYPE_CHECKING:
 
 #: Scenario keys that do not change what a hindcast computes.
 NOT_IN_KEY = ("name", "description", "paths", "seed", "costs", "start", "history")
+#: The [history] keys naming files; the other [history] keys say how they are read.
+HISTORY_FILES = ("admissions", "episodes")
 
 
 def file_sha256(path: Path) -> str:
@@ -41,9 +43,17 @@ def json_ready(value: Any) -> Any:
 
 def scenario_key(scenario: Scenario) -> str:
     """A hash (hex, 16 digits) of the resolved scenario without the keys that do not change a
-    hindcast, plus the contents of its history files: equal keys = the same setup and data."""
+    hindcast, plus the contents of its history files and how they are read (the [history]
+    keys other than the paths): equal keys = the same setup and data."""
     resolved = {k: v for k, v in scenario.resolved.items() if k not in NOT_IN_KEY}
     files = [p for p in (scenario.admissions_file, scenario.episodes_file) if p]
     record = {"scenario": json_ready(resolved), "files": [file_sha256(p) for p in files]}
+    # How the files are read (columns, ward, methods ...): the same file read for another
+    # ward is other data. Paths are left out (the files' contents are in the key).
+    reading = {
+        k: v for k, v in scenario.resolved.get("history", {}).items() if k not in HISTORY_FILES
+    }
+    if reading:
+        record["reading"] = json_ready(reading)
     text = json.dumps(record, sort_keys=True, default=str)
     return hashlib.sha256(text.encode()).hexdigest()[:16]

@@ -25,8 +25,9 @@ from planner.forecast.settings import (
     Surge,
 )
 from planner.records.files import HistoryFormat
-from planner.schema import TABLES, TOP
-from planner.schema_checks import validate
+from planner.scenario_history import history_format
+from planner.schema import TOP
+from planner.schema_checks import table_values, validate
 from planner.simulate.settings import (
     BedChange,
     DischargeSettings,
@@ -137,15 +138,6 @@ def _hours(text: str) -> float:
     return int(hours) + int(minutes) / 60.0
 
 
-def _table(document: dict[str, Any], name: str) -> dict[str, Any]:
-    """Values of one table with defaults filled in."""
-    spec = next(table for table in TABLES if table.name == name)
-    given = document
-    for part in name.split("."):
-        given = given.get(part, {})
-    return {key.name: given.get(key.name, key.default) for key in spec.keys}
-
-
 def _items(document: dict[str, Any], name: str) -> list[dict[str, Any]]:
     root, child = name.split(".")
     return list(document.get(root, {}).get(child, []))
@@ -174,7 +166,7 @@ def _shifts(document: dict[str, Any]) -> tuple[Shift, ...]:
 
 
 def _ward(document: dict[str, Any], where: str) -> WardSettings:
-    beds = _table(document, "beds")
+    beds = table_values(document, "beds")
     changes = []
     for number, item in enumerate(_items(document, "beds.change"), start=1):
         _check_range(f"{where}: beds.change[{number}]", item["start"], item["end"])
@@ -191,7 +183,7 @@ def _ward(document: dict[str, Any], where: str) -> WardSettings:
             )
         overrides.append(RosterOverride(item["start"], item["end"], item["shift"], item["nurses"]))
     staffing = StaffingSettings(
-        shifts, _table(document, "staffing")["minimum_nurses"], tuple(overrides)
+        shifts, table_values(document, "staffing")["minimum_nurses"], tuple(overrides)
     )
     try:
         validate_staffing(staffing)
@@ -205,12 +197,12 @@ _FORECAST_FIELDS = {"holidays": "holiday_dates", "backtest_every_days": "backtes
 
 
 def _forecast(document: dict[str, Any], where: str) -> ForecastSettings:
-    values = _table(document, "forecast")
+    values = table_values(document, "forecast")
     surges = []
     for number, item in enumerate(_items(document, "demand.surge"), start=1):
         _check_range(f"{where}: demand.surge[{number}]", item["start"], item["end"])
         surges.append(Surge(item["start"], item["end"], float(item["factor"])))
-    demand = DemandAdjustment(float(_table(document, "demand")["growth"]), tuple(surges))
+    demand = DemandAdjustment(float(table_values(document, "demand")["growth"]), tuple(surges))
     fields = {_FORECAST_FIELDS.get(key, key): value for key, value in values.items()}
     fields["holiday_dates"] = tuple(fields["holiday_dates"])
     direct_backtest = (fields["strategy"], fields["residuals"]) == ("direct", "backtest")
@@ -248,7 +240,7 @@ def _level_changes(document: dict[str, Any], where: str) -> tuple[LevelChange, .
 
 
 def _stay(document: dict[str, Any], where: str) -> StaySettings:
-    values = _table(document, "stay")
+    values = table_values(document, "stay")
     model, mean, sd = values["model"], values["mean"], values["sd"]
     if sd is not None and mean is None:
         raise PlannerError(f"{where}: stay.sd: given without stay.mean")
@@ -270,7 +262,7 @@ def _stay(document: dict[str, Any], where: str) -> StaySettings:
 def _discharge(document: dict[str, Any], where: str, calendar_possible: bool) -> DischargeSettings:
     """The ``[discharge]`` table (``calendar_possible``: episodes are given and stay.mean is
     not). "auto" is kept: it is resolved when the episodes are fitted."""
-    values = _table(document, "discharge")
+    values = table_values(document, "discharge")
     timing, earlier, seven_day = values["timing"], values["earlier_hours"], values["seven_day"]
     if earlier > 23:
         raise PlannerError(f"{where}: discharge.earlier_hours: must be 0 to 23, got {earlier}")
@@ -299,7 +291,7 @@ def load_scenario(path: str | Path | None = None) -> Scenario:
     document = read_document(path)
     where = str(path)
     top = {key.name: document.get(key.name, key.default) for key in TOP}
-    history = _table(document, "history")
+    history = table_values(document, "history")
     if history["admissions"] is None and history["episodes"] is None:
         raise PlannerError(f"{where}: history: give history.episodes or history.admissions")
     stay = _stay(document, where)
@@ -321,15 +313,10 @@ def load_scenario(path: str | Path | None = None) -> Scenario:
         forecast=_forecast(document, where),
         stay=stay,
         ward=_ward(document, where),
-        engine=_table(document, "simulation")["engine"],
-        costs=Costs(**{k: float(v) for k, v in _table(document, "costs").items()}),
+        engine=table_values(document, "simulation")["engine"],
+        costs=Costs(**{k: float(v) for k, v in table_values(document, "costs").items()}),
         resolved=document,
-        history_format=HistoryFormat(
-            history["date_format"],
-            history["timestamp_format"],
-            history["fill_missing_days"],
-            history["over_beds"],
-        ),
+        history_format=history_format(document, where),
         discharge=_discharge(
             document, where, history["episodes"] is not None and stay.mean is None
         ),

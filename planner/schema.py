@@ -17,7 +17,9 @@ from typing import Any
 class Key:
     """One scenario key. ``kind`` is one of: int, float, bool, str, date, hour ("HH:MM"),
     path, auto_bool (true, false or "auto"), dates (list of dates), roster (7 whole numbers),
-    date_format (a strptime format giving day, month and year)."""
+    date_format (a strptime format giving day, month and year), column (a column name),
+    names (a text or a list of texts), texts (a list of texts), encoding (a text encoding
+    Python knows), sheet (a sheet name, or its number from 1)."""
 
     name: str
     kind: str
@@ -76,27 +78,37 @@ TABLES = (
         "or both (then admissions feed the forecast and episodes the stays and current "
         "inpatients).",
         (
-            Key("admissions", "path", None, "Daily counts CSV with columns date,admissions."),
+            Key(
+                "admissions",
+                "path",
+                None,
+                "Daily counts, CSV or .xlsx workbook, with columns date,admissions (or as "
+                "history.columns names them), one row per day, oldest first or strictly newest "
+                "first.",
+            ),
             Key(
                 "episodes",
                 "path",
                 None,
-                "Episode CSV with columns admitted_at,discharged_at; "
-                "empty discharged_at = still on the ward.",
+                "Episodes, CSV or .xlsx workbook, with columns admitted_at,discharged_at (or "
+                "as history.columns names them); a discharge in history.still_on_ward (empty, "
+                "NULL ...) = still on the ward.",
             ),
             Key(
                 "date_format",
                 "date_format",
                 None,
-                "How the daily file writes dates, as a strptime format, e.g. "
-                '"%d/%m/%Y" for day-first 30/11/2026 (default: YYYY-MM-DD).',
+                "How the daily file (and separate date columns of episodes) writes dates, as a "
+                'strptime format, e.g. "%d/%m/%Y" for day-first 30/11/2026 (default: '
+                "YYYY-MM-DD).",
             ),
             Key(
                 "timestamp_format",
                 "date_format",
                 None,
                 "How the episode file writes timestamps, e.g. "
-                '"%d/%m/%Y %H:%M" (default: ISO, YYYY-MM-DD HH:MM).',
+                '"%d/%m/%Y %H:%M" (default: ISO, YYYY-MM-DD HH:MM); seconds are accepted '
+                "after a format that stops at minutes.",
             ),
             Key(
                 "fill_missing_days",
@@ -113,6 +125,111 @@ TABLES = (
                 "open that day: refuse (the file probably holds several wards, or the beds are "
                 "wrong) or allow (the ward really was over its beds; nobody is moved).",
                 choices=("refuse", "allow"),
+            ),
+            Key(
+                "ward",
+                "names",
+                None,
+                "The ward (or list of wards) whose rows are read from files holding several, "
+                "by the ward column (any case); each file then needs a ward column, and a "
+                "listed ward that no row names is refused (default: every row, and a file "
+                "whose ward column names several wards is refused).",
+            ),
+            Key(
+                "specialty",
+                "names",
+                None,
+                "The specialty (or list) whose rows are read, by the specialty column (any "
+                "case); each file then needs a specialty column (default: every row).",
+            ),
+            Key(
+                "planned_methods",
+                "texts",
+                [],
+                "Values of the episodes' admission method column meaning a planned "
+                '(elective) admission, e.g. ["Elective", "Booked"] (any case). With '
+                "emergency_methods, every row's method must be in one of the two lists; the "
+                'episodes then carry method = "planned" or "emergency".',
+            ),
+            Key(
+                "emergency_methods",
+                "texts",
+                [],
+                "Values of the admission method column meaning an emergency admission, e.g. "
+                '["Emergency", "A&E", "GP referral"] (any case).',
+            ),
+            Key(
+                "still_on_ward",
+                "texts",
+                ["", "NULL", "NA", "N/A", "None", "NaT"],
+                "Values of an episode's discharge time meaning the patient is still on the "
+                'ward (any case); "" is an empty cell. Giving the list replaces the default; '
+                "a value outside it must be a time.",
+            ),
+            Key(
+                "encoding",
+                "encoding",
+                None,
+                'Text encoding of the CSV files, e.g. "utf-8", "cp1252", "latin-1", '
+                '"utf-16" (default: UTF-8, else Windows-1252).',
+            ),
+            Key(
+                "episodes_sheet",
+                "sheet",
+                None,
+                "Sheet of an episodes workbook (.xlsx), by name or number (1 = first) "
+                "(default: the workbook's only sheet).",
+            ),
+            Key(
+                "admissions_sheet",
+                "sheet",
+                None,
+                "Sheet of a daily counts workbook (.xlsx), by name or number (1 = first) "
+                "(default: the workbook's only sheet).",
+            ),
+        ),
+    ),
+    Table(
+        "history.columns",
+        "The files' own column names for the tool's fields (header text, any case); a field "
+        "not given is read from the column of its own name. A time is one column "
+        "(admitted_at) or a date and a time column (admitted_date with admitted_time). One "
+        "mapping serves both files.",
+        (
+            Key("admitted_at", "column", None, "Episodes: admission date and time."),
+            Key("discharged_at", "column", None, "Episodes: discharge date and time."),
+            Key(
+                "admitted_date",
+                "column",
+                None,
+                "Episodes: admission date, in its own column (with admitted_time; dates as "
+                "history.date_format).",
+            ),
+            Key("admitted_time", "column", None, "Episodes: admission time, HH:MM[:SS]."),
+            Key(
+                "discharged_date",
+                "column",
+                None,
+                "Episodes: discharge date, in its own column (with discharged_time).",
+            ),
+            Key("discharged_time", "column", None, "Episodes: discharge time, HH:MM[:SS]."),
+            Key("date", "column", None, "Daily counts: the day."),
+            Key("admissions", "column", None, "Daily counts: admissions that day."),
+            Key("ward", "column", None, "Either file: the ward (for history.ward)."),
+            Key("specialty", "column", None, "Either file: the specialty (for history.specialty)."),
+            Key(
+                "method",
+                "column",
+                None,
+                "Episodes: the admission method (read with history.planned_methods and "
+                "history.emergency_methods).",
+            ),
+            Key(
+                "patient",
+                "column",
+                None,
+                "Episodes: a patient or episode id; two rows are the same episode only when "
+                "it matches too.",
             ),
         ),
     ),

@@ -4,6 +4,7 @@ reported with its key path."""
 
 from __future__ import annotations
 
+import codecs
 import difflib
 import math
 import re
@@ -27,6 +28,20 @@ def _full_date_format(text: str) -> bool:
     return back.date() == _PROBE.date()
 
 
+def _is_text_list(value: Any) -> bool:
+    return isinstance(value, list) and all(isinstance(v, str) for v in value)
+
+
+def _known_encoding(value: Any) -> bool:
+    if not isinstance(value, str):
+        return False
+    try:
+        codecs.lookup(value)
+    except LookupError:
+        return False
+    return True
+
+
 def _kind_error(key: Key, value: Any) -> str | None:
     """Why ``value`` is not of the key's kind, or None."""
     expected = {
@@ -41,6 +56,11 @@ def _kind_error(key: Key, value: Any) -> str | None:
         "dates": "a list of dates",
         "roster": "a list of 7 whole numbers (Monday..Sunday)",
         "date_format": 'a strptime format with day, month and year, e.g. "%d/%m/%Y"',
+        "column": "a column name (text)",
+        "names": 'a text or a list of texts, e.g. "Larch" or ["Larch", "Rowan"]',
+        "texts": 'a list of texts, e.g. ["Elective", "Booked"]',
+        "encoding": 'a text encoding, e.g. "utf-8", "cp1252", "latin-1" or "utf-16"',
+        "sheet": "a sheet name, or its number (1 = first)",
     }[key.kind]
     ok = {
         "int": isinstance(value, int) and not isinstance(value, bool),
@@ -56,6 +76,13 @@ def _kind_error(key: Key, value: Any) -> str | None:
         and len(value) == 7
         and all(isinstance(v, int) and not isinstance(v, bool) and v >= 0 for v in value),
         "date_format": isinstance(value, str) and _full_date_format(value),
+        "column": isinstance(value, str) and value.strip() != "",
+        "names": (isinstance(value, str) and value.strip() != "")
+        or (_is_text_list(value) and value != [] and all(v.strip() for v in value)),
+        "texts": _is_text_list(value),
+        "encoding": _known_encoding(value),
+        "sheet": (isinstance(value, str) and value.strip() != "")
+        or (isinstance(value, int) and not isinstance(value, bool) and value >= 1),
     }[key.kind]
     return None if ok else f"must be {expected}, got {value!r}"
 
@@ -72,6 +99,15 @@ def _check_key(key: Key, value: Any, where: str) -> None:
         problem = f"must be > {key.above:g}, got {value!r}"
     if problem:
         raise PlannerError(f"{where}: {problem}")
+
+
+def table_values(document: dict[str, Any], name: str) -> dict[str, Any]:
+    """Values of one table (``"history.columns"``) of a merged document, defaults filled in."""
+    spec = next(table for table in TABLES if table.name == name)
+    given = document
+    for part in name.split("."):
+        given = given.get(part, {})
+    return {key.name: given.get(key.name, key.default) for key in spec.keys}
 
 
 def _unknown(name: str, known: list[str], where: str) -> PlannerError:

@@ -23,7 +23,7 @@ import pytest
 
 PACKAGE = Path(__file__).resolve().parents[1] / "planner"
 MOST_PARAMETERS = 8
-READER = {"planner.scenario", "planner.schema_checks"}
+READER = {"planner.scenario", "planner.scenario_history", "planner.schema_checks"}
 NUMERICS = ("planner.forecast", "planner.simulate", "planner.summaries", "planner.records")
 
 

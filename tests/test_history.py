@@ -59,7 +59,10 @@ def test_daily_counts_export_quirks_accepted(tmp_path, text):
         ("date,admissions\n01/02/2026,3\n", "line 2: date '01/02/2026' is not a date"),
         ("date,admissions\n2026-01-01,3\n2026-01-01,4\n", "line 3: date 2026-01-01 appears twice"),
         ("date,admissions\n2026-01-01,3\n2026-01-04,4\n", "line 3: days missing from 2026-01-02"),
-        ("date,admissions\n2026-01-02,3\n2026-01-01,4\n", "line 3: dates are not in increasing"),
+        (
+            "date,admissions\n2026-01-01,3\n2026-01-03,4\n2026-01-02,1\n",
+            "line 4: dates are not in increasing",
+        ),
         ("date,admissions\n2026-01-01,-1\n", "line 2: admissions '-1' is not a non-negative"),
         ("date,admissions\n2026-01-01,2.5\n", "line 2: admissions '2.5' is not a non-negative"),
         ("date,admissions\n2026-01-01,many\n", "line 2: admissions 'many'"),
@@ -343,7 +346,13 @@ def test_a_file_of_several_wards_is_refused(tmp_path):
         read_episodes(write(tmp_path, text, "episodes.csv"))
     assert str(error.value) == (
         f"{tmp_path / 'episodes.csv'}: column ward names 2 wards (Larch, Rowan); planner reads "
-        "one ward's records: export the ward to plan, or one file per ward"
+        "one ward's records: name the ward to plan with history.ward, or export one file per ward"
     )
     one_ward = text.replace("Rowan", "Larch")
     assert len(read_episodes(write(tmp_path, one_ward, "one.csv"))) == 3
+    # Once a ward is named the file may hold several: its rows are kept.
+    larch = read_episodes(tmp_path / "episodes.csv", HistoryFormat(wards=("larch",)))
+    assert larch["admitted_at"].tolist() == [
+        pd.Timestamp("2026-11-01 10:00"),
+        pd.Timestamp("2026-11-02 11:00"),
+    ]

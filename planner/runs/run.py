@@ -89,7 +89,8 @@ def check_patients_fit_beds(scenario: Scenario, history: WardHistory) -> None:
         f"{scenario.episodes_file}: {patients} patients on the ward at 00:00 on "
         f"{history.first_day.date()} but {beds} beds open (beds.base = {scenario.ward.beds}); "
         f"the records reach a census of {int(census.max())} on {census.idxmax().date()}: does "
-        f"the file hold several wards? Give one ward's episodes, correct [beds], or set "
+        f"the file hold several wards? Name one with history.ward (or give one ward's "
+        f"episodes), correct [beds], or set "
         f'history.over_beds = "allow" if the ward really was over its beds'
     )
 
@@ -109,10 +110,16 @@ def check_scenario(path: Path | None) -> list[str]:
         f"policy {scenario.ward.policy}",
     ]
     if history.episodes is not None:
+        methods = ""
+        if "method" in history.episodes:
+            counts = history.episodes["method"].value_counts()
+            methods = f" ({counts['emergency']} emergency, {counts['planned']} planned)"
         lines.append(
-            f"episodes: {len(history.episodes)}, {len(history.inpatients_elapsed())} on the "
-            f"ward at the start"
+            f"episodes: {len(history.episodes)}{methods}, {len(history.inpatients_elapsed())} "
+            f"on the ward at the start"
         )
+    for table in (history.admissions, history.episodes):
+        lines += [] if table is None else list(table.attrs.get("notes", ()))
     lines.append(f"discharges: {describe_discharges(*discharge_timing(scenario, history))}")
     return lines
 
