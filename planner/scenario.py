@@ -264,17 +264,19 @@ def _discharge(document: dict[str, Any], where: str, calendar_possible: bool) ->
     not). "auto" is kept: it is resolved when the episodes are fitted."""
     values = table_values(document, "discharge")
     timing, earlier, seven_day = values["timing"], values["earlier_hours"], values["seven_day"]
+    noon = values["before_noon"]
     if earlier > 23:
         raise PlannerError(f"{where}: discharge.earlier_hours: must be 0 to 23, got {earlier}")
-    if seven_day > 1:
-        raise PlannerError(f"{where}: discharge.seven_day: must be 0 to 1, got {seven_day}")
+    for name, share in (("seven_day", seven_day), ("before_noon", noon)):
+        if share > 1:
+            raise PlannerError(f"{where}: discharge.{name}: must be 0 to 1, got {share}")
     if timing == "calendar" and not calendar_possible:
         raise PlannerError(
             f'{where}: discharge.timing: "calendar" learns discharges from history.episodes '
             f"and cannot be used with stay.mean or without episodes"
         )
-    if (earlier or seven_day) and (timing == "continuous" or not calendar_possible):
-        lever = "earlier_hours" if earlier else "seven_day"
+    if (earlier or seven_day or noon) and (timing == "continuous" or not calendar_possible):
+        lever = "earlier_hours" if earlier else "seven_day" if seven_day else "before_noon"
         raise PlannerError(
             f"{where}: discharge.{lever}: acts on calendar discharge timing, which this "
             f"scenario does not use (it needs history.episodes, no stay.mean and "
@@ -282,7 +284,7 @@ def _discharge(document: dict[str, Any], where: str, calendar_possible: bool) ->
         )
     if timing == "auto" and not calendar_possible:
         timing = "continuous"
-    return DischargeSettings(timing, int(earlier), float(seven_day))
+    return DischargeSettings(timing, int(earlier), float(seven_day), float(noon))
 
 
 def load_scenario(path: str | Path | None = None) -> Scenario:

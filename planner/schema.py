@@ -432,6 +432,15 @@ TABLES = (
                 minimum=0,
             ),
             Key(
+                "before_noon",
+                "float",
+                0.0,
+                "Calendar timing: at least this share (0-1) of each weekday's discharges "
+                "before 12:00 (morning hours scaled up together, afternoon down); 0 leaves "
+                "the hours as recorded.",
+                minimum=0.0,
+            ),
+            Key(
                 "seven_day",
                 "float",
                 0.0,

@@ -14,6 +14,8 @@ CASES = [
          {"ward.csv": GOOD}, plan(tables="[discharge]\nearlier_hours = 30\n"), "plan.toml"),
     Case("seven-day above one", ("discharge.seven_day: must be 0 to 1, got 1.5",),
          {"ward.csv": GOOD}, plan(tables="[discharge]\nseven_day = 1.5\n"), "plan.toml"),
+    Case("before noon above one", ("discharge.before_noon: must be 0 to 1, got 2",),
+         {"ward.csv": GOOD}, plan(tables="[discharge]\nbefore_noon = 2.0\n"), "plan.toml"),
     Case("negative earlier", ("discharge.earlier_hours",),
          {"ward.csv": GOOD}, plan(tables="[discharge]\nearlier_hours = -2\n"), "plan.toml"),
     Case("unknown timing", ("discharge.timing",),

@@ -20,6 +20,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
+from planner.errors import PlannerError
 from planner.simulate import fast, ward
 from planner.simulate.discharge_fit import DischargeTiming
 from planner.simulate.discharge_times import (
@@ -369,3 +370,19 @@ def test_mean_nights_lever_reaches_its_target():
     means = [survival(changed.alpha, BETA, w, 2000).sum() for w in range(7)]
     assert np.mean(means) == pytest.approx(3.0, abs=1e-9)
     assert changed.beta.tolist() == BETA.tolist()
+
+
+def test_before_noon_lever_reaches_its_share_and_keeps_each_half_shape():
+    # Source: definition of the lever (module docstring of discharge_fit): at least the share
+    # before 12:00 on every weekday, morning and afternoon hours each scaled together.
+    base = timing(profile=np.tile(np.r_[np.zeros(8), np.full(4, 0.05), np.full(12, 0.8 / 12)],
+                                  (7, 1)))  # fmt: skip
+    changed = base.before_noon(0.4)
+    np.testing.assert_allclose(changed.hour_profile[:, :12].sum(axis=1), 0.4)
+    np.testing.assert_allclose(changed.hour_profile.sum(axis=1), 1.0)
+    np.testing.assert_allclose(changed.hour_profile[:, 8:12], 0.1)
+    np.testing.assert_allclose(changed.hour_profile[:, 12:], 0.6 / 12)
+    assert base.before_noon(0.1).hour_profile.tolist() == base.hour_profile.tolist()
+    afternoon_only = np.tile(np.r_[np.zeros(12), np.full(12, 1 / 12)], (7, 1))
+    with pytest.raises(PlannerError, match="no discharge before 12:00"):
+        timing(profile=afternoon_only).before_noon(0.3)

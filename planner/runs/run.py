@@ -223,6 +223,11 @@ def discharge_timing(
         timing = timing.seven_day(settings.seven_day)
     if settings.earlier_hours:
         timing = timing.earlier(settings.earlier_hours)
+    if settings.before_noon:
+        try:
+            timing = timing.before_noon(settings.before_noon)
+        except PlannerError as error:
+            raise PlannerError(f"{scenario.source}: discharge.before_noon: {error}") from None
     return timing, ""
 
 

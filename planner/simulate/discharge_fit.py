@@ -164,6 +164,26 @@ class DischargeTiming:
         levers = (*self.levers, f"discharges {hours} h earlier")
         return replace(self, hour_profile=both[:7], pooled_profile=both[7], levers=levers)
 
+    def before_noon(self, share: float) -> DischargeTiming:
+        """At least ``share`` (0-1) of each weekday's discharges before 12:00: where fewer
+        leave by noon, the morning hours' shares are scaled up together and the afternoon's
+        down together (each keeps its shape); weekdays already there are left alone."""
+        if not 0.0 <= share <= 1.0:
+            raise PlannerError(f"discharges before noon: share must be 0 to 1, got {share}")
+        both = np.vstack((self.hour_profile, self.pooled_profile))
+        morning = both[:, :12].sum(axis=1, keepdims=True)
+        low = (morning < share)[:, 0]
+        if np.any(low & (morning[:, 0] <= 0.0)):
+            raise PlannerError(
+                f"discharges before noon: the records show no discharge before 12:00 on some "
+                f"weekday, so no share of {share:.0%} can be scaled up from them"
+            )
+        scaled = both.copy()
+        scaled[low, :12] *= share / morning[low]
+        scaled[low, 12:] *= (1.0 - share) / (1.0 - morning[low])
+        levers = (*self.levers, f"at least {share:.0%} of discharges before noon")
+        return replace(self, hour_profile=scaled[:7], pooled_profile=scaled[7], levers=levers)
+
     def seven_day(self, fraction: float) -> DischargeTiming:
         """Weekend discharging moved toward weekdays': the Saturday and Sunday effects move by
         ``fraction`` (0-1) of their distance to the mean Monday-Friday effect (logit scale);

@@ -67,16 +67,18 @@ class StaffingSettings:
 class DischargeSettings:
     """When patients leave (the ``[discharge]`` table). ``timing``: "auto", "calendar" or
     "continuous"; ``earlier_hours``: calendar discharges moved earlier on their day (0-23);
-    ``seven_day``: share (0-1) of the way the weekend discharge rates move to the weekdays'."""
+    ``seven_day``: share (0-1) of the way the weekend discharge rates move to the weekdays';
+    ``before_noon``: least share (0-1) of each weekday's discharges before 12:00."""
 
     timing: str = default("discharge.timing")
     earlier_hours: int = default("discharge.earlier_hours")
     seven_day: float = default("discharge.seven_day")
+    before_noon: float = default("discharge.before_noon")
 
     @property
     def levers(self) -> bool:
         """True when a lever changes the learned discharge timing."""
-        return self.earlier_hours != 0 or self.seven_day != 0.0
+        return self.earlier_hours != 0 or self.seven_day != 0.0 or self.before_noon != 0.0
 
 
 @dataclass(frozen=True)
