@@ -45,7 +45,8 @@ import numpy as np
 import simpy
 
 from planner.allocator import keep_freed_memory
-from planner.runs.run import load_history, ward_model
+from planner.runs.run import load_history
+from planner.runs.ward_model import ward_model
 from planner.scenario import load_scenario
 from planner.simulate import fast, sampling
 from planner.simulate.discharge_fit import describe_discharges

@@ -8,7 +8,6 @@ Paths are resolved relative to the file that names them.
 
 from __future__ import annotations
 
-import math
 import tomllib
 from dataclasses import dataclass, field
 from datetime import date
@@ -26,11 +25,13 @@ from planner.forecast.settings import (
 )
 from planner.records.files import HistoryFormat
 from planner.scenario_history import history_format
+from planner.scenario_patients import clock_hours, read_discharge, read_planned, read_stay
 from planner.schema import TOP
 from planner.schema_checks import table_values, validate
 from planner.simulate.settings import (
     BedChange,
     DischargeSettings,
+    PlannedSettings,
     RosterOverride,
     Shift,
     StaffingSettings,
@@ -64,6 +65,7 @@ class Scenario:
     resolved: dict[str, Any] = field(repr=False, compare=False)
     history_format: HistoryFormat = field(default_factory=HistoryFormat)
     discharge: DischargeSettings = field(default_factory=DischargeSettings)
+    planned: PlannedSettings = field(default_factory=PlannedSettings)
 
     @property
     def horizon_days(self) -> int:
@@ -133,11 +135,6 @@ def read_document(path: Path, _seen: tuple[Path, ...] = ()) -> dict[str, Any]:
     return _merge(read_document(Path(parent), (*_seen, path)), document)
 
 
-def _hours(text: str) -> float:
-    hours, minutes = text.split(":")
-    return int(hours) + int(minutes) / 60.0
-
-
 def _items(document: dict[str, Any], name: str) -> list[dict[str, Any]]:
     root, child = name.split(".")
     return list(document.get(root, {}).get(child, []))
@@ -155,8 +152,8 @@ def _shifts(document: dict[str, Any]) -> tuple[Shift, ...]:
     shifts = tuple(
         Shift(
             item["name"],
-            _hours(item["start"]),
-            _hours(item["end"]),
+            clock_hours(item["start"]),
+            clock_hours(item["end"]),
             float(item["patients_per_nurse"]),
             tuple(item["roster"]),
         )
@@ -239,54 +236,6 @@ def _level_changes(document: dict[str, Any], where: str) -> tuple[LevelChange, .
     return tuple(changes)
 
 
-def _stay(document: dict[str, Any], where: str) -> StaySettings:
-    values = table_values(document, "stay")
-    model, mean, sd = values["model"], values["mean"], values["sd"]
-    if sd is not None and mean is None:
-        raise PlannerError(f"{where}: stay.sd: given without stay.mean")
-    if model == "exponential" and sd is not None and not math.isclose(sd, mean, rel_tol=1e-9):
-        raise PlannerError(
-            f"{where}: stay.sd: an exponential stay has sd equal to its mean; omit sd"
-        )
-    if mean is not None and sd is None and model != "exponential":
-        raise PlannerError(f"{where}: stay.sd: required with stay.mean for model {model!r}")
-    return StaySettings(
-        values["model"],
-        values["mean"],
-        values["sd"],
-        float(values["change_days"]),
-        float(values["scale"]),
-    )
-
-
-def _discharge(document: dict[str, Any], where: str, calendar_possible: bool) -> DischargeSettings:
-    """The ``[discharge]`` table (``calendar_possible``: episodes are given and stay.mean is
-    not). "auto" is kept: it is resolved when the episodes are fitted."""
-    values = table_values(document, "discharge")
-    timing, earlier, seven_day = values["timing"], values["earlier_hours"], values["seven_day"]
-    noon = values["before_noon"]
-    if earlier > 23:
-        raise PlannerError(f"{where}: discharge.earlier_hours: must be 0 to 23, got {earlier}")
-    for name, share in (("seven_day", seven_day), ("before_noon", noon)):
-        if share > 1:
-            raise PlannerError(f"{where}: discharge.{name}: must be 0 to 1, got {share}")
-    if timing == "calendar" and not calendar_possible:
-        raise PlannerError(
-            f'{where}: discharge.timing: "calendar" learns discharges from history.episodes '
-            f"and cannot be used with stay.mean or without episodes"
-        )
-    if (earlier or seven_day or noon) and (timing == "continuous" or not calendar_possible):
-        lever = "earlier_hours" if earlier else "seven_day" if seven_day else "before_noon"
-        raise PlannerError(
-            f"{where}: discharge.{lever}: acts on calendar discharge timing, which this "
-            f"scenario does not use (it needs history.episodes, no stay.mean and "
-            f'discharge.timing "auto" or "calendar")'
-        )
-    if timing == "auto" and not calendar_possible:
-        timing = "continuous"
-    return DischargeSettings(timing, int(earlier), float(seven_day), float(noon))
-
-
 def load_scenario(path: str | Path | None = None) -> Scenario:
     """Read, merge and validate a scenario file (default: the bundled demo)."""
     path = demo_scenario_path() if path is None else Path(path)
@@ -296,7 +245,7 @@ def load_scenario(path: str | Path | None = None) -> Scenario:
     history = table_values(document, "history")
     if history["admissions"] is None and history["episodes"] is None:
         raise PlannerError(f"{where}: history: give history.episodes or history.admissions")
-    stay = _stay(document, where)
+    stay = read_stay(document, where)
     if stay.mean is None and history["episodes"] is None:
         raise PlannerError(
             f"{where}: stay: without history.episodes, give stay.mean "
@@ -319,7 +268,8 @@ def load_scenario(path: str | Path | None = None) -> Scenario:
         costs=Costs(**{k: float(v) for k, v in table_values(document, "costs").items()}),
         resolved=document,
         history_format=history_format(document, where),
-        discharge=_discharge(
+        discharge=read_discharge(
             document, where, history["episodes"] is not None and stay.mean is None
         ),
+        planned=read_planned(document, where),
     )

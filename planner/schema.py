@@ -451,6 +451,44 @@ TABLES = (
         ),
     ),
     Table(
+        "planned",
+        "Planned (elective) admissions booked on a weekly list, simulated beside the "
+        "emergency forecast. With a list, the forecast is fitted on emergency admissions only: "
+        "map the episodes' admission method (history.columns.method, history.planned_methods, "
+        "history.emergency_methods), or give history.admissions counting emergency admissions "
+        "only.",
+        (
+            Key(
+                "list",
+                "roster",
+                None,
+                "Planned patients booked each weekday, Monday to Sunday (no planned stream "
+                "when not given).",
+                "patients",
+            ),
+            Key("admission_time", "hour", "08:00", "When the planned patients arrive."),
+            Key(
+                "when_full",
+                "str",
+                "cancel",
+                "A planned patient who finds no free bed: cancel (the booking is lost to this "
+                "period and counted) or wait (queues first come, first served with emergency "
+                "patients, whatever beds.policy says).",
+                choices=("cancel", "wait"),
+            ),
+            Key(
+                "stay_mean",
+                "float",
+                None,
+                "Mean stay of planned patients (lognormal with stay_sd); default: learned "
+                "from the planned episodes with stay.model.",
+                "days",
+                above=0.0,
+            ),
+            Key("stay_sd", "float", None, "Standard deviation with stay_mean.", "days", above=0.0),
+        ),
+    ),
+    Table(
         "beds",
         "Beds and what happens when none is free.",
         (

@@ -16,7 +16,7 @@ past origin with :meth:`WardHistory.known_at`.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import pandas as pd
@@ -96,6 +96,14 @@ class WardHistory:
             return None, None
         durations, observed = stays_at(self.episodes, self.first_day)
         return np.maximum(durations, MINIMUM_RECORDED_STAY_DAYS), observed
+
+    def of_method(self, method: str) -> WardHistory:
+        """The same history with only the episodes whose admission method (column
+        ``method``) is ``method`` ("planned" or "emergency"): for the stays of one stream.
+        The history itself when the episodes carry no method."""
+        if self.episodes is None or "method" not in self.episodes:
+            return self
+        return replace(self, episodes=self.episodes[self.episodes["method"] == method])
 
     def census(self) -> pd.Series | None:
         """The recorded midnight census (patients) of every day of the history, or None

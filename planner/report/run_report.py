@@ -32,9 +32,17 @@ TERMINAL_COLUMNS = {
 }
 
 
+#: Columns added with a planned list.
+PLANNED_TERMINAL_COLUMNS = {"expected_cancelled": "cancelled", "p_cancellation": "P(cancel)"}
+
+
 def terminal_table(weekly: pd.DataFrame) -> str:
     """The weekly table as aligned text for the terminal."""
-    shown = weekly[list(TERMINAL_COLUMNS)].rename(columns=TERMINAL_COLUMNS).copy()
+    columns = TERMINAL_COLUMNS | (PLANNED_TERMINAL_COLUMNS if "p_cancellation" in weekly else {})
+    shown = weekly[list(columns)].rename(columns=columns).copy()
+    if "p_cancellation" in weekly:
+        shown["P(cancel)"] = shown["P(cancel)"].map(lambda p: f"{p:.0%}")
+        shown["cancelled"] = shown["cancelled"].map(lambda v: f"{v:.1f}")
     for column in ("P(no bed)", "P(short staff)"):
         shown[column] = shown[column].map(lambda p: f"{p:.0%}")
     for column in ("affected", "wait h", "short shifts", "beds"):
@@ -54,7 +62,7 @@ def page_table(weekly: pd.DataFrame) -> pd.DataFrame:
             + weekly[f"{column}_se"].map("{:.1%}".format)
         )
 
-    return pd.DataFrame(
+    table = pd.DataFrame(
         {
             "week from": weekly["week_start"],
             "P(no free bed at some moment)": with_se("p_bed_shortfall"),
@@ -70,6 +78,13 @@ def page_table(weekly: pd.DataFrame) -> pd.DataFrame:
             "short shifts": weekly["expected_short_shifts"].map("{:.1f}".format),
         }
     )
+    if "p_cancellation" in weekly:
+        table["planned patients admitted"] = weekly["expected_planned_admitted"].map(
+            "{:.1f}".format
+        )
+        table["planned patients cancelled"] = weekly["expected_cancelled"].map("{:.1f}".format)
+        table["P(at least one cancellation)"] = with_se("p_cancellation")
+    return table
 
 
 def headline(run: RunResult) -> str:
@@ -198,11 +213,20 @@ def assumptions(run: RunResult, hindcast: HindcastQuote | None = None) -> list[t
     items += [
         ("Length of stay", run.model.stays.describe()),
         ("Discharges", describe_discharges(run.model.discharges, run.model.timing_note)),
+        *_planned(run),
         ("Current inpatients", _inpatients(run)),
         *_ward_plan(run.scenario),
         ("Hindcast", hindcast_line(hindcast)),
     ]
     return items
+
+
+def _planned(run: RunResult) -> list[tuple[str, str]]:
+    """The planned list, when the ward has one."""
+    if run.model.planned is None:
+        return []
+    return [("Planned admissions", f"{run.model.planned.describe()}; the forecast covers "
+             f"emergency admissions only")]  # fmt: skip
 
 
 def _hours(run: RunResult):

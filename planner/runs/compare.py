@@ -29,7 +29,7 @@ def _forecast_key(scenario: Scenario) -> tuple:
 
 
 def _model_key(scenario: Scenario) -> tuple:
-    return (*_records_key(scenario), scenario.stay, scenario.discharge)
+    return (*_records_key(scenario), scenario.stay, scenario.discharge, scenario.planned)
 
 
 def _check_alike(scenarios: list[Scenario]) -> None:

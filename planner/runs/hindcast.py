@@ -43,7 +43,8 @@ from planner.errors import PlannerError
 from planner.fingerprint import scenario_key
 from planner.records.census import WARMUP_DAYS
 from planner.results import HINDCAST_SIDECAR, HindcastQuote, HindcastResult
-from planner.runs.run import forecast_step, load_history, simulate_step, ward_model
+from planner.runs.run import forecast_step, load_history, simulate_step
+from planner.runs.ward_model import ward_model
 from planner.scenario import Scenario
 from planner.simulate.model import RunOptions
 from planner.simulate.workers import worker_setup

@@ -21,12 +21,9 @@ from planner.records.files import (
 )
 from planner.records.ward_history import WardHistory
 from planner.results import RunResult, RunSummary
+from planner.runs.ward_model import discharge_timing, planned_list, ward_model
 from planner.scenario import Scenario, load_scenario
-from planner.simulate.discharge_fit import (
-    DischargeTiming,
-    describe_discharges,
-    fit_discharge_timing,
-)
+from planner.simulate.discharge_fit import describe_discharges
 from planner.simulate.model import RunOptions, WardModel, beds_open_by_day
 from planner.summaries.daily import summarise_daily, summarise_shifts
 from planner.summaries.weekly import outlook, weekly_paths, weekly_table
@@ -44,6 +41,8 @@ def load_history(scenario: Scenario) -> WardHistory:
     episodes = read_episodes(scenario.episodes_file, form) if scenario.episodes_file else None
     if scenario.admissions_file is not None:
         admissions = read_daily_admissions(scenario.admissions_file, form)
+    elif scenario.planned.per_weekday is not None:
+        admissions = _emergency_admissions(scenario, episodes)
     else:
         admissions = admissions_from_episodes(episodes)
     first_free = admissions.index[-1] + pd.Timedelta(days=1)
@@ -72,6 +71,23 @@ def load_history(scenario: Scenario) -> WardHistory:
     history = WardHistory(admissions, episodes, start)
     check_patients_fit_beds(scenario, history)
     return history
+
+
+def _emergency_admissions(scenario: Scenario, episodes: pd.DataFrame) -> pd.Series:
+    """Daily emergency admissions from the episodes, for a scenario with a planned list (the
+    planned patients are simulated from the list, so the forecast must leave them out)."""
+    if "method" not in episodes:
+        raise PlannerError(
+            f"{scenario.episodes_file}: planned.list: the episodes carry no admission method, "
+            f"so planned patients cannot be told from emergency ones and would be counted "
+            f"twice; map the method column (history.columns.method, history.planned_methods, "
+            f"history.emergency_methods) or give history.admissions with emergency admissions "
+            f"only"
+        )
+    emergency = episodes[episodes["method"] == "emergency"]
+    if emergency.empty:
+        raise PlannerError(f"{scenario.episodes_file}: no emergency episodes to forecast from")
+    return admissions_from_episodes(emergency, episodes_end(episodes))
 
 
 def check_patients_fit_beds(scenario: Scenario, history: WardHistory) -> None:
@@ -120,7 +136,15 @@ def check_scenario(path: Path | None) -> list[str]:
         )
     for table in (history.admissions, history.episodes):
         lines += [] if table is None else list(table.attrs.get("notes", ()))
-    lines.append(f"discharges: {describe_discharges(*discharge_timing(scenario, history))}")
+    if scenario.planned.per_weekday is not None:
+        emergency = history.of_method("emergency")
+        lines.append(f"discharges: {describe_discharges(*discharge_timing(scenario, emergency))}")
+        lines.append(
+            f"planned: {planned_list(scenario, history).describe()}; the forecast covers "
+            f"emergency admissions only"
+        )
+    else:
+        lines.append(f"discharges: {describe_discharges(*discharge_timing(scenario, history))}")
     return lines
 
 
@@ -175,62 +199,6 @@ def backtest_step(scenario: Scenario, history: WardHistory, paths: int, seed: in
     )
 
 
-def ward_model(scenario: Scenario, history: WardHistory) -> WardModel:
-    """The simulated ward: the scenario's beds, policy and rota, with the length of stay (and
-    with calendar timing the discharges' days and hours), the patients on the ward and the
-    hour-of-day profile learned from the history."""
-    from planner.simulate.arrivals import hour_profile
-    from planner.simulate.stay_fit import stay_distribution
-
-    stays, observed = history.stays()
-    admitted = None if history.episodes is None else history.episodes["admitted_at"]
-    discharges, note = discharge_timing(scenario, history)
-    return WardModel(
-        start=history.first_day.date(),
-        settings=scenario.ward,
-        stays=stay_distribution(scenario.stay, stays, observed),
-        inpatients_elapsed=history.inpatients_elapsed(),
-        hour_profile=hour_profile(admitted),
-        discharges=discharges,
-        timing_note=note,
-    )
-
-
-def discharge_timing(
-    scenario: Scenario, history: WardHistory
-) -> tuple[DischargeTiming | None, str]:
-    """The calendar discharge timing learned from the episodes known at the start, with the
-    scenario's stay changes and levers, or None for stays as durations; and a note when
-    ``discharge.timing = "auto"`` found the episodes too few for calendar timing.
-    stay.change_days and stay.scale act on the mean stay in nights: (fitted mean +
-    change_days) x scale."""
-    settings = scenario.discharge
-    if settings.timing == "continuous":
-        return None, ""
-    try:
-        timing = fit_discharge_timing(history.episodes, history.first_day)
-    except PlannerError as error:
-        if settings.timing == "auto" and not settings.levers:
-            return None, f"stays drawn as durations: calendar discharge timing not fitted ({error})"
-        raise PlannerError(
-            f"{scenario.episodes_file}: {error}; or set discharge.timing = "
-            f'"continuous" to draw stays as durations'
-        ) from None
-    change = scenario.stay
-    if change.change_days != 0.0 or change.scale != 1.0:
-        timing = timing.with_mean_nights((timing.mean_stay + change.change_days) * change.scale)
-    if settings.seven_day:
-        timing = timing.seven_day(settings.seven_day)
-    if settings.earlier_hours:
-        timing = timing.earlier(settings.earlier_hours)
-    if settings.before_noon:
-        try:
-            timing = timing.before_noon(settings.before_noon)
-        except PlannerError as error:
-            raise PlannerError(f"{scenario.source}: discharge.before_noon: {error}") from None
-    return timing, ""
-
-
 def simulate_step(model: WardModel, arrivals: np.ndarray, options: RunOptions):
     """Simulate ``model`` for every arrival path with the seed, engine, processes and cluster
     of ``options`` (paths, seed and engine filled in); the result depends only on the seed."""
@@ -271,7 +239,7 @@ def run_scenario(
     ward = simulate_step(model, forecast.paths, options)
     timings["simulate_s"] = time.perf_counter() - clock
     clock = time.perf_counter()
-    weekly = weekly_paths(ward, history.start)
+    weekly = weekly_paths(ward, history.start, model.planned is not None)
     summary = summarise_run(ward, weekly, history)
     timings["summarise_s"] = time.perf_counter() - clock
     return RunResult(

@@ -33,8 +33,9 @@ from planner.simulate.sampling import DrawnInputs, draw_inputs
 BLOCK_PATIENTS = 1_000_000
 #: Rows of the integer daily records, in this order (wait hours are kept apart, as floats).
 COUNTED = ("census", "peak_occupancy", "admissions", "bed_admissions", "discharges",
-           "waited", "diverted", "queue")  # fmt: skip
+           "waited", "diverted", "queue", "planned_admissions", "cancelled")  # fmt: skip
 _CENSUS, _PEAK, _ADMISSIONS, _BED_ADMISSIONS, _DISCHARGES, _WAITED, _DIVERTED, _QUEUE = range(8)
+_PLANNED, _CANCELLED = 8, 9
 
 
 @compiled_inline
@@ -79,12 +80,12 @@ def _pop(heap, size):  # pragma: no cover - compiled
 
 
 @compiled_inline
-def _leave(bed_hour, k, stays, clock, timing):  # pragma: no cover - compiled
+def _leave(bed_hour, k, stays, clock, planned, timing):  # pragma: no cover - compiled
     """Hour of the discharge of new patient ``k`` who took a bed at ``bed_hour``: the stay
-    added, or with calendar discharges the drawn discharge time (as bed hour plus the time to
-    it, the sum the SimPy model's timeout makes)."""
+    added, or with calendar discharges for an emergency patient the drawn discharge time (as
+    bed hour plus the time to it, the sum the SimPy model's timeout makes)."""
     calendar, tables = timing
-    if calendar:
+    if calendar and not (planned.size > 0 and planned[k] == 1):
         return bed_hour + (discharge_at(bed_hour, stays[k], clock[k], tables) - bed_hour)
     return bed_hour + 24.0 * stays[k]
 
@@ -97,8 +98,9 @@ def _simulate_block(inputs, ward, records):  # pragma: no cover - compiled
     their tables)); ``records``: (counts (paths, days, 8) in the
     order of ``COUNTED``, wait hours (paths, days), shift peaks (paths, days, shifts) in the
     order of the start hours), filled in."""
-    offsets, arrivals, stays, remaining, clock = inputs
-    beds_open, starts, wait, timing = ward
+    offsets, arrivals, stays, remaining, clock, planned = inputs
+    beds_open, starts, wait, timing, cancel = ward
+    some_planned = planned.size > 0
     counts, wait_hours, shift_peak = records
     paths, days = wait_hours.shape
     shifts = starts.size
@@ -145,13 +147,15 @@ def _simulate_block(inputs, ward, records):  # pragma: no cover - compiled
                     midnight += 24.0
                     day_peak = level
                     beds = beds_open[day]
-                    while wait and head < tail and level < beds:
+                    while head < tail and level < beds:  # a queue only while some wait
                         k = queue[head]
                         queue_wait[head] = boundary - arrivals[k]
                         head += 1
                         level += 1
                         counts[p, day, _BED_ADMISSIONS] += 1
-                        size = _push(heap, size, _leave(boundary, k, stays, clock, timing))
+                        if some_planned and planned[k] == 1:
+                            counts[p, day, _PLANNED] += 1
+                        size = _push(heap, size, _leave(boundary, k, stays, clock, planned, timing))
                         day_peak = max(day_peak, level)
                         shift_level = max(shift_level, level)
                 continue  # beds given at 00:00 may leave before the event at t
@@ -160,28 +164,37 @@ def _simulate_block(inputs, ward, records):  # pragma: no cover - compiled
             if t_out <= t_in:  # a discharge (before an arrival at the same time)
                 size = _pop(heap, size)
                 counts[p, day, _DISCHARGES] += 1
-                if wait and head < tail and level <= beds:  # the bed goes to the queue's head
+                if head < tail and level <= beds:  # the bed goes to the queue's head
                     k = queue[head]
                     queue_wait[head] = t - arrivals[k]
                     head += 1
                     counts[p, day, _BED_ADMISSIONS] += 1
-                    size = _push(heap, size, _leave(t, k, stays, clock, timing))
+                    if some_planned and planned[k] == 1:
+                        counts[p, day, _PLANNED] += 1
+                    size = _push(heap, size, _leave(t, k, stays, clock, planned, timing))
                 else:
                     level -= 1
             else:
-                counts[p, day, _ADMISSIONS] += 1
+                is_planned = some_planned and planned[a] == 1
                 if level < beds:
+                    counts[p, day, _ADMISSIONS] += 1
                     level += 1
                     counts[p, day, _BED_ADMISSIONS] += 1
-                    size = _push(heap, size, _leave(t, a, stays, clock, timing))
+                    if is_planned:
+                        counts[p, day, _PLANNED] += 1
+                    size = _push(heap, size, _leave(t, a, stays, clock, planned, timing))
                     day_peak = max(day_peak, level)
                     shift_level = max(shift_level, level)
-                elif wait:
+                elif is_planned and cancel:
+                    counts[p, day, _CANCELLED] += 1
+                elif wait or is_planned:
+                    counts[p, day, _ADMISSIONS] += 1
                     counts[p, day, _WAITED] += 1
                     queue[tail] = a
                     queue_day[tail] = day
                     tail += 1
                 else:
+                    counts[p, day, _ADMISSIONS] += 1
                     counts[p, day, _DIVERTED] += 1
                 a += 1
         counts[p, days - 1, _CENSUS] = level
@@ -202,10 +215,11 @@ def _records(inputs: DrawnInputs, model: WardModel, beds: np.ndarray, out, at: i
     starts = np.sort([shift.start_hour for shift in ward.staffing.shifts])
     rows = slice(at, at + inputs.paths)
     arrays = (inputs.offsets, inputs.arrival_hours, inputs.stay_days, inputs.remaining_days,
-              inputs.clock_uniforms)  # fmt: skip
+              inputs.clock_uniforms, inputs.planned)  # fmt: skip
+    cancel = model.planned is not None and model.planned.when_full == "cancel"
     _simulate_block(
         arrays,
-        (beds, np.asarray(starts, dtype=float), ward.policy == "wait", _timing(model)),
+        (beds, np.asarray(starts, dtype=float), ward.policy == "wait", _timing(model), cancel),
         tuple(array[rows] for array in out),
     )
 

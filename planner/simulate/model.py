@@ -22,6 +22,7 @@ import numpy as np
 from planner.errors import PlannerError
 from planner.schema import choices
 from planner.simulate.discharge_fit import DischargeTiming
+from planner.simulate.planned import PlannedList
 from planner.simulate.settings import WardSettings
 from planner.simulate.stays import StayDistribution
 
@@ -35,7 +36,9 @@ class WardModel:
     ``discharges``: None when a stay is a duration from the bed time (drawn from ``stays``),
     else the discharge timing that gives each patient's discharge day and clock time
     (:mod:`planner.simulate.discharge_times`; ``stays`` then only describes the ward);
-    ``timing_note``: why stays are durations when calendar timing was asked for by default."""
+    ``timing_note``: why stays are durations when calendar timing was asked for by default;
+    ``planned``: the weekly list of planned admissions, if any
+    (:mod:`planner.simulate.planned`)."""
 
     start: date
     settings: WardSettings
@@ -44,6 +47,7 @@ class WardModel:
     hour_profile: np.ndarray = field(default_factory=lambda: np.full(24, 1 / 24))
     discharges: DischargeTiming | None = None
     timing_note: str = ""
+    planned: PlannedList | None = None
 
     def __post_init__(self) -> None:
         elapsed = np.asarray(self.inpatients_elapsed, dtype=float)

@@ -20,7 +20,7 @@ from planner.simulate.staffing import nurses_required, rostered_nurses, shortfal
 
 DAILY_COLUMNS = (
     "census", "peak_occupancy", "admissions", "bed_admissions", "discharges",
-    "waited", "diverted", "wait_hours", "queue", "beds_open",
+    "waited", "diverted", "wait_hours", "queue", "planned_admissions", "cancelled", "beds_open",
 )  # fmt: skip
 #: Daily measures stored per path (beds_open is the same on every path).
 PATH_DAILY = tuple(name for name in DAILY_COLUMNS if name != "beds_open")
@@ -36,8 +36,11 @@ class WardResult:
     24:00), ``peak_occupancy`` (most occupied beds during the day), ``admissions`` (arrivals
     that day), ``bed_admissions`` (patients given a bed that day), ``discharges``, ``waited``
     (arrivals that day who found no free bed, "wait" policy), ``diverted`` (arrivals that day
-    placed elsewhere, "divert" policy), ``queue`` (patients waiting at 24:00); ``wait_hours``
-    (float64, hours waited by that day's arrivals). ``beds_open``: (days,) beds open each day.
+    placed elsewhere, "divert" policy), ``queue`` (patients waiting at 24:00),
+    ``planned_admissions`` (planned patients given a bed that day), ``cancelled`` (planned
+    patients booked that day and cancelled for want of a bed; not counted in ``admissions``);
+    ``wait_hours`` (float64, hours waited by that day's arrivals). ``beds_open``: (days,) beds
+    open each day.
 
     Per path, day and shift, (paths, days, shifts) int32 arrays, shifts in the order of
     ``shift_names`` (the staffing settings' order), the shift belonging to the day it starts:
@@ -57,6 +60,8 @@ class WardResult:
     diverted: np.ndarray
     wait_hours: np.ndarray
     queue: np.ndarray
+    planned_admissions: np.ndarray
+    cancelled: np.ndarray
     beds_open: np.ndarray
     shift_names: tuple[str, ...]
     shift_peak_occupancy: np.ndarray

@@ -16,7 +16,10 @@ fewer admissions changes only what it must (common random numbers across plans):
   rota;
 * position ``2 * STREAM_SPACING``, only when discharges follow the calendar (the model's
   ``discharges``): the clock-time uniforms of the discharges, one per patient on the ward at
-  the start, then one per new patient in order of arrival time.
+  the start, then one per new patient in order of arrival time;
+* position ``3 * STREAM_SPACING``, only with a planned list (the model's ``planned``): the
+  stays of the planned patients, in order of admission (their number and times are the same
+  on every path).
 
 With calendar discharges the first uniform of a patient (the one that gives a stay in the
 continuous model) draws the day of stay of the discharge instead and the second its clock
@@ -35,7 +38,7 @@ Both engines read :class:`DrawnInputs` and draw nothing themselves.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -64,7 +67,9 @@ class DrawnInputs:
     discharges their uniforms for the day of stay instead); ``remaining_days``: (paths,
     inpatients) remaining stays of the patients on the ward at the start (days > 0), in the
     model's order; ``clock_uniforms``: with calendar discharges, the new patients' uniforms for
-    the clock time of their discharges (else empty)."""
+    the clock time of their discharges (else empty); ``planned``: with a planned list, 1 for
+    each new patient who is a planned one (their stays are durations, whatever the timing),
+    0 for an emergency one (else empty)."""
 
     first_path: int
     offsets: np.ndarray
@@ -72,6 +77,7 @@ class DrawnInputs:
     stay_days: np.ndarray
     remaining_days: np.ndarray
     clock_uniforms: np.ndarray = field(default_factory=lambda: np.zeros(0))
+    planned: np.ndarray = field(default_factory=lambda: np.zeros(0, dtype=np.uint8))
 
     @property
     def paths(self) -> int:
@@ -87,6 +93,54 @@ def path_seed(seed: int | np.random.SeedSequence, path: int) -> np.random.SeedSe
     """The child ``SeedSequence`` of path number ``path``."""
     base = seed if isinstance(seed, np.random.SeedSequence) else np.random.SeedSequence(seed)
     return np.random.SeedSequence(base.entropy, spawn_key=(*base.spawn_key, path))
+
+
+@compiled
+def _merge(emergency, planned, merged):  # pragma: no cover - compiled
+    """Merge each path's emergency patients (``emergency``: offsets, hours, stays, clock
+    uniforms) with the planned ones (``planned``: hours, the same on every path, and stays
+    (paths, n)) in order of time, planned first at equal times; ``merged``: (hours, stays, clock
+    uniforms, planned flags) filled in, path i's from offsets[i] + i n."""
+    offsets, hours, stays, clock = emergency
+    planned_hours, planned_stays = planned
+    out_hours, out_stays, out_clock, flags = merged
+    n = planned_hours.size
+    calendar = out_clock.size > 0
+    for i in range(offsets.size - 1):
+        k, hi, j = offsets[i], offsets[i + 1], 0
+        m = offsets[i] + i * n
+        while k < hi or j < n:
+            if j < n and (k >= hi or planned_hours[j] <= hours[k]):
+                out_hours[m], out_stays[m], flags[m] = planned_hours[j], planned_stays[i, j], 1
+                j += 1
+            else:
+                out_hours[m], out_stays[m], flags[m] = hours[k], stays[k], 0
+                if calendar:
+                    out_clock[m] = clock[k]
+                k += 1
+            m += 1
+
+
+def with_planned(
+    inputs: DrawnInputs, hours: np.ndarray, stays: np.ndarray, calendar: bool
+) -> DrawnInputs:
+    """``inputs`` with the planned patients (admission ``hours``, the same on every path, and
+    their ``stays`` (paths, n) in days) merged in, in order of time; ``calendar``: the
+    emergency patients' discharges follow the calendar (their clock uniforms are merged too)."""
+    paths, n = stays.shape
+    total = inputs.arrival_hours.size + paths * n
+    merged = (np.empty(total), np.empty(total), np.zeros(total if calendar else 0),
+              np.empty(total, dtype=np.uint8))  # fmt: skip
+    emergency = (inputs.offsets, inputs.arrival_hours, inputs.stay_days, inputs.clock_uniforms)
+    _merge(emergency, (np.asarray(hours, dtype=float), np.ascontiguousarray(stays)), merged)
+    return replace(
+        inputs,
+        offsets=inputs.offsets + n * np.arange(paths + 1),
+        arrival_hours=merged[0],
+        stay_days=merged[1],
+        clock_uniforms=merged[2],
+        planned=merged[3],
+    )
 
 
 @compiled
@@ -168,6 +222,9 @@ def draw_inputs(
     # Calendar discharges: path i's clock-time uniforms (inpatients', then new patients') are
     # entries starts[i] - offsets[i] to starts[i + 1] - offsets[i + 1] of ``clock``.
     clock = np.empty(starts[-1] - offsets[-1] if calendar else 0)
+    planned = model.planned
+    planned_hours = np.zeros(0) if planned is None else planned.hours(model.start, counts.shape[1])
+    planned_u = np.empty((paths if planned else 0, planned_hours.size))
     bounds = zip(starts[:-1].tolist(), starts[1:].tolist(), offsets[:-1].tolist(),
                  offsets[1:].tolist(), strict=True)  # fmt: skip
     for i, (begin, end, lo, hi) in enumerate(bounds):
@@ -179,9 +236,34 @@ def draw_inputs(
             draw.random(out=stay_u[lo:hi])
         else:
             stay_u[lo:hi] = stays.sample(draw, hi - lo)
+        position = STREAM_SPACING + hi - lo
         if calendar:
-            bits.advance(STREAM_SPACING - (hi - lo))
+            bits.advance(2 * STREAM_SPACING - position)
             draw.random(out=clock[begin - lo : end - hi])
+            position = 2 * STREAM_SPACING + (end - hi) - (begin - lo)
+        if planned is not None:
+            bits.advance(3 * STREAM_SPACING - position)
+            if planned.stays.inverse_transform:
+                draw.random(out=planned_u[i])
+            else:
+                planned_u[i] = planned.stays.sample(draw, planned_hours.size)
+    if planned is not None and planned.stays.inverse_transform:
+        planned_u = planned.stays.from_uniforms(1.0 - planned_u.ravel()).reshape(planned_u.shape)
+    inputs = _emergency_inputs(model, first_path, offsets, counts, (first_stream, stay_u, clock))
+    if planned is None:
+        return inputs
+    return with_planned(inputs, planned_hours, planned_u, calendar)
+
+
+def _emergency_inputs(model, first_path, offsets, counts, uniforms) -> DrawnInputs:
+    """The drawn inputs of the emergency patients and those on the ward at the start, from
+    the block's ``uniforms`` (first stream, stays stream, clock stream; module docstring)."""
+    first_stream, stay_u, clock = uniforms
+    paths = counts.shape[0]
+    inpatients = model.inpatients_elapsed.size
+    stays, calendar = model.stays, model.discharges is not None
+    by_uniforms = calendar or stays.inverse_transform
+    starts = np.arange(paths + 1) * inpatients + 2 * offsets
     remaining_u = first_stream[starts[:-1, None] + np.arange(inpatients)].ravel()
     elapsed = np.tile(model.inpatients_elapsed, paths)
     hours = arrival_hours(first_stream, counts, model.hour_profile, inpatients)

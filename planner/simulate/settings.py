@@ -82,6 +82,19 @@ class DischargeSettings:
 
 
 @dataclass(frozen=True)
+class PlannedSettings:
+    """The ``[planned]`` table: ``per_weekday`` (7 whole numbers, or None for no planned
+    stream), ``admission_hour`` (hours after 00:00), ``when_full`` ("cancel" or "wait"),
+    ``stay_mean``/``stay_sd`` (days; None to learn the stays from planned episodes)."""
+
+    per_weekday: tuple[int, ...] | None = None
+    admission_hour: float = 8.0
+    when_full: str = default("planned.when_full")
+    stay_mean: float | None = None
+    stay_sd: float | None = None
+
+
+@dataclass(frozen=True)
 class StaySettings:
     """Length of stay. ``model``: "empirical" (resample the episode stays), "lognormal",
     "gamma", "weibull", "exponential", or "best" (the parametric fit with the lowest AIC).

@@ -47,14 +47,17 @@ from planner.simulate.sampling import DrawnInputs, draw_inputs
 CLOSURE, PATIENT = 0, 1
 
 
-def _run_path(arrival_hours, stay_hours, remaining_days, beds_open, divert):
+def _run_path(arrival_hours, stay_hours, remaining_days, beds_open, rules):
     """Run one path in SimPy until the end of the window (hours). ``stay_hours(number, now)``:
-    hours from taking a bed at ``now`` to the discharge of new patient ``number``.
+    hours from taking a bed at ``now`` to the discharge of new patient ``number``; ``rules``:
+    (True for policy "divert", the planned flag of each new patient or None, True when a
+    planned patient with no free bed is cancelled).
 
     Returns the occupancy log (hours and changes in occupied beds, +1 or -1, after a first
-    entry at hour -1 holding the patients in beds at the start), the patients (numbered in
-    arrival order) who found no free bed, and those of them given a bed later with the hours
-    they got it."""
+    entry at hour -1 holding the patients in beds at the start) and the patients (numbered in
+    arrival order) who: waited for a bed, were given one from the queue (with the hours they
+    got it), were diverted, were cancelled; and the hours planned patients got their beds."""
+    divert, planned, cancel = rules
     env = simpy.Environment()
     capacity = max(int(beds_open.max()), len(remaining_days), 1)
     beds = simpy.PriorityResource(env, capacity)
@@ -62,7 +65,7 @@ def _run_path(arrival_hours, stay_hours, remaining_days, beds_open, divert):
     users, queue = beds.users, beds.queue
     log_hour, log_change = [-1.0], [len(remaining_days)]
     logged, changed = log_hour.append, log_change.append
-    no_bed, from_queue, bed_hour = [], [], []
+    no_bed, from_queue, bed_hour, diverted, cancelled, planned_beds = [], [], [], [], [], []
 
     def inpatient(env, hours):
         bed = request(PATIENT)  # granted at once: the first requests, and capacity suffices
@@ -73,15 +76,22 @@ def _run_path(arrival_hours, stay_hours, remaining_days, beds_open, divert):
 
     def patient(env, number, arrive):
         yield timeout(arrive)  # from time 0, so env.now is the drawn hour exactly
-        if divert and (len(users) >= capacity or queue):  # every bed taken, or a closure waits
-            no_bed.append(number)
-            return
+        booked = planned is not None and planned[number]
+        if len(users) >= capacity or queue:  # every bed taken, or a closure waits
+            if booked and cancel:
+                cancelled.append(number)
+                return
+            if divert and not booked:
+                diverted.append(number)
+                return
         bed = request(PATIENT)
         if not bed.triggered:  # no free bed: wait in the queue, first come, first served
             no_bed.append(number)
             yield bed
             from_queue.append(number)
             bed_hour.append(env.now)
+        if booked:
+            planned_beds.append(env.now)
         logged(env.now)
         changed(1)
         yield timeout(stay_hours(number, env.now))
@@ -117,7 +127,8 @@ def _run_path(arrival_hours, stay_hours, remaining_days, beds_open, divert):
     for number, arrive in enumerate(arrival_hours.tolist()):
         process(patient(env, number, arrive))
     env.run(until=24.0 * beds_open.size)
-    return log_hour, log_change, no_bed, from_queue, bed_hour
+    return (log_hour, log_change), (no_bed, from_queue, bed_hour, diverted, cancelled,
+                                    planned_beds)  # fmt: skip
 
 
 def _levels_and_peaks(times, levels, boundaries):
@@ -131,14 +142,22 @@ def _levels_and_peaks(times, levels, boundaries):
 
 def _stay_hours(inputs: DrawnInputs, i: int, tables):
     """``stay_hours(number, now)`` of the block's path ``i`` (see :func:`_run_path`): the
-    drawn stay, or with calendar discharges (``tables`` not None) the time to the discharge
-    drawn for a bed taken at ``now`` (:func:`planner.simulate.discharge_times.discharge_at`)."""
+    drawn stay, or with calendar discharges (``tables`` not None) for an emergency patient the
+    time to the discharge drawn for a bed taken at ``now``
+    (:func:`planner.simulate.discharge_times.discharge_at`)."""
     lo, hi = inputs.offsets[i], inputs.offsets[i + 1]
+    stays = (24.0 * inputs.stay_days[lo:hi]).tolist()
     if tables is None:
-        stays = (24.0 * inputs.stay_days[lo:hi]).tolist()
         return lambda number, now: stays[number]
     day_u, clock_u = inputs.stay_days[lo:hi].tolist(), inputs.clock_uniforms[lo:hi].tolist()
-    return lambda number, now: discharge_at(now, day_u[number], clock_u[number], tables) - now
+    planned = inputs.planned[lo:hi].tolist() if inputs.planned.size else [0] * (hi - lo)
+
+    def stay_hours(number, now):
+        if planned[number]:
+            return stays[number]
+        return discharge_at(now, day_u[number], clock_u[number], tables) - now
+
+    return stay_hours
 
 
 def simulate_drawn(inputs: DrawnInputs, model: WardModel, days: int) -> WardResult:
@@ -166,27 +185,36 @@ def simulate_drawn(inputs: DrawnInputs, model: WardModel, days: int) -> WardResu
     tables = None
     if model.discharges is not None:
         tables = DischargeTables.build(model.discharges, model.start.weekday()).arrays()
+    planned = inputs.planned
+    cancel = model.planned is not None and model.planned.when_full == "cancel"
     for i in range(paths):
         hours, _, remaining_days = inputs.path(i)
-        log_hour, log_change, no_bed, from_queue, bed_hour = _run_path(
-            hours, _stay_hours(inputs, i, tables), remaining_days, beds, divert
+        lo, hi = inputs.offsets[i], inputs.offsets[i + 1]
+        rules = (divert, planned[lo:hi].astype(bool).tolist() if planned.size else None, cancel)
+        log, fates = _run_path(hours, _stay_hours(inputs, i, tables), remaining_days, beds, rules)
+        no_bed, from_queue, bed_hour, diverted, cancelled, planned_beds = (
+            np.array(fate, dtype=float if k in (2, 5) else np.int64) for k, fate in enumerate(fates)
         )
-        log_hour, log_change = np.array(log_hour), np.array(log_change)
+        log_hour, log_change = np.array(log[0]), np.array(log[1])
         levels = np.cumsum(log_change)
         at_midnight, daily["peak_occupancy"][i] = _levels_and_peaks(log_hour, levels, day_bounds)
         daily["census"][i] = at_midnight[1:]
         arrival_day = day_of(hours)
-        no_bed = np.array(no_bed, dtype=np.int64)
-        daily["admissions"][i] = per_day(arrival_day)
+        came = np.ones(hours.size, dtype=bool)
+        came[cancelled] = False
+        daily["admissions"][i] = per_day(arrival_day[came])
         daily["bed_admissions"][i] = per_day(day_of(log_hour[1:][log_change[1:] > 0]))
         daily["discharges"][i] = per_day(day_of(log_hour[1:][log_change[1:] < 0]))
-        daily["diverted" if divert else "waited"][i] = per_day(arrival_day[no_bed])
-        if not divert:  # waited until given a bed, or until the end of the window
-            waited_until = np.full(hours.size, horizon)
-            waited_until[np.array(from_queue, dtype=np.int64)] = bed_hour
-            daily["wait_hours"][i] = per_day(arrival_day[no_bed], (waited_until - hours)[no_bed])
-            given = np.cumsum(per_day(day_of(bed_hour)))
-            daily["queue"][i] = np.cumsum(daily["waited"][i]) - given
+        daily["diverted"][i] = per_day(arrival_day[diverted])
+        daily["waited"][i] = per_day(arrival_day[no_bed])
+        daily["cancelled"][i] = per_day(arrival_day[cancelled])
+        daily["planned_admissions"][i] = per_day(day_of(planned_beds))
+        # Waited until given a bed, or until the end of the window.
+        waited_until = np.full(hours.size, horizon)
+        waited_until[from_queue] = bed_hour
+        daily["wait_hours"][i] = per_day(arrival_day[no_bed], (waited_until - hours)[no_bed])
+        given = np.cumsum(per_day(day_of(bed_hour)))
+        daily["queue"][i] = np.cumsum(daily["waited"][i]) - given
         _, peaks = _levels_and_peaks(log_hour, levels, shift_bounds)
         shift_peak[i][:, order] = peaks.reshape(days, len(shifts))
     return ward_result(start, inputs.first_path, daily, beds, shift_peak, ward.staffing)

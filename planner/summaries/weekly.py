@@ -9,7 +9,9 @@ and week:
 * wait hours: hours waited by patients arriving that week;
 * peak census: the most beds occupied at any moment of the week;
 * staff shortfall: at least one shift of the week had fewer nurses rostered than required;
-  short shifts: how many.
+  short shifts: how many;
+* with a planned list: planned patients given a bed that week, planned patients cancelled
+  for want of a bed, and whether at least one was cancelled.
 
 Probabilities are shares of paths; ``_se`` columns are Monte Carlo standard errors across the
 independent paths (:mod:`planner.summaries.monte_carlo`).
@@ -45,6 +47,8 @@ class WeeklyPaths:
     beds_open: np.ndarray  # (weeks,) mean beds open over the week's days
     bed_days: np.ndarray  # (weeks,) beds open summed over the week's days
     nurse_shifts: np.ndarray  # (weeks,) rostered nurse-shifts in the week
+    planned_admitted: np.ndarray | None = None  # with a planned list
+    cancelled: np.ndarray | None = None  # with a planned list
 
     @property
     def paths(self) -> int:
@@ -58,9 +62,12 @@ def _weeks(grid: np.ndarray, how: str) -> np.ndarray:
     return blocks.sum(axis=2) if how == "sum" else blocks.max(axis=2)
 
 
-def weekly_paths(result: WardResult, start: date | pd.Timestamp | None = None) -> WeeklyPaths:
+def weekly_paths(
+    result: WardResult, start: date | pd.Timestamp | None = None, planned: bool = False
+) -> WeeklyPaths:
     """Reduce the simulated ward to per-path weekly measures, weeks counted from ``start``
-    (default: the first simulated day; a later day drops the days before it)."""
+    (default: the first simulated day; a later day drops the days before it); ``planned``:
+    the ward has a planned list (its measures are kept)."""
     first = pd.Timestamp(result.start)
     start = first if start is None else pd.Timestamp(start)
     skip = (start - first).days
@@ -90,6 +97,8 @@ def weekly_paths(result: WardResult, start: date | pd.Timestamp | None = None) -
         beds_open=bed_days / 7.0,
         bed_days=bed_days,
         nurse_shifts=_weeks(rostered, "sum")[0],
+        planned_admitted=_weeks(grid(result.planned_admissions), "sum") if planned else None,
+        cancelled=_weeks(grid(result.cancelled), "sum") if planned else None,
     )
 
 
@@ -99,7 +108,7 @@ def weekly_table(weekly: WeeklyPaths) -> pd.DataFrame:
     p_staff, p_staff_se = share_se(weekly.staff_shortfall)
     affected, affected_se = mean_se(weekly.patients_affected)
     peak = np.quantile(weekly.peak_census, [0.5, 0.9], axis=0)
-    return pd.DataFrame(
+    table = pd.DataFrame(
         {
             "week_start": weekly.week_start.strftime("%Y-%m-%d"),
             "p_bed_shortfall": p_bed,
@@ -116,6 +125,13 @@ def weekly_table(weekly: WeeklyPaths) -> pd.DataFrame:
             "expected_short_shifts": weekly.short_shifts.mean(axis=0),
         }
     )
+    if weekly.cancelled is not None:
+        p_cancel, p_cancel_se = share_se(weekly.cancelled > 0)
+        table["expected_planned_admitted"] = weekly.planned_admitted.mean(axis=0)
+        table["expected_cancelled"] = weekly.cancelled.mean(axis=0)
+        table["p_cancellation"] = p_cancel
+        table["p_cancellation_se"] = p_cancel_se
+    return table
 
 
 def any_shortfall(weekly: WeeklyPaths, weeks: int) -> tuple[float, float]:
