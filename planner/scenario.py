@@ -37,6 +37,7 @@ from planner.simulate.settings import (
 )
 from planner.simulate.staffing import validate_staffing
 from planner.summaries.comparison import Costs
+from planner.summaries.sizing import SizingTarget, sizing_target
 
 DEMO_NAME = "baseline.toml"
 
@@ -61,6 +62,8 @@ class Scenario:
     engine: str
     resolved: dict[str, Any] = field(repr=False, compare=False)
     history_format: HistoryFormat = field(default_factory=HistoryFormat)
+    #: The [sizing] target, None when the scenario has no [sizing] table.
+    sizing: SizingTarget | None = None
 
     @property
     def horizon_days(self) -> int:
@@ -302,4 +305,5 @@ def load_scenario(path: str | Path | None = None) -> Scenario:
             history["fill_missing_days"],
             history["over_beds"],
         ),
+        sizing=sizing_target(document["sizing"], where) if "sizing" in document else None,
     )
