@@ -71,7 +71,7 @@ class SizingTarget:
         what = {
             "no_bed_week": "the weekly chance of a patient finding no free bed",
             "no_bed_share": "the share of patients finding no free bed",
-            "wait_hours": "the expected hours waited for a bed each week",
+            "wait_hours": "the expected hours waited for a bed in a week",
         }[self.measure]
         return f"{what} at or under {self.target_text()}"
 
