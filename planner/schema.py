@@ -399,9 +399,9 @@ TABLES = (
     ),
     Table(
         "sizing",
-        "The risk the ward should stay under: the fewest beds (and nurses per shift and "
-        "weekday) that keep it there in every forecast week are searched for "
-        "(planner.runs.sizing).",
+        "The risk the ward should stay under: `planner size` finds the fewest beds (and "
+        "nurses per shift and weekday) that keep it there in every forecast week, and "
+        "`planner run` quotes that answer in its headline when the scenario has this table.",
         (
             Key(
                 "measure",

@@ -87,3 +87,34 @@ def test_bad_targets_are_one_line_exit_2(tmp_path, sizing, arguments, message):
     assert len(result.output.strip().splitlines()) == 1 or "fewest beds" in result.output
     assert "Traceback" not in result.output
     assert not out.exists()  # nothing half-written
+
+
+def test_run_quotes_the_sizing_answer(tmp_path):
+    out = tmp_path / "run"
+    path = plan(tmp_path, '[sizing]\nmeasure = "no_bed_share"\n')
+    result = CliRunner().invoke(
+        cli, ["run", str(path), "--paths", "300", "--jobs", "1", "--out", str(out)]
+    )
+    assert result.exit_code == 0, result.output
+    assert "To keep the share of patients finding no free bed at or under 5% in every week" \
+        in result.output  # fmt: skip
+    assert (out / "sizing.csv").is_file() and (out / "roster.csv").is_file()
+    assert "What the ward needs" in (out / "report.html").read_text()
+
+
+def test_run_without_a_target_does_not_size(tmp_path):
+    out = tmp_path / "run"
+    result = CliRunner().invoke(
+        cli, ["run", str(plan(tmp_path, "")), "--paths", "100", "--jobs", "1", "--out", str(out)]
+    )
+    assert result.exit_code == 0, result.output
+    assert "To keep" not in result.output and not (out / "sizing.csv").exists()
+
+
+def test_compare_does_not_size_its_plans(tmp_path):
+    # A comparison runs plans side by side; sizing each would multiply its time unasked.
+    from planner.runs.compare import _plan
+
+    path = plan(tmp_path, '[sizing]\nmeasure = "no_bed_share"\n')
+    assert load_scenario(path).sizing is not None
+    assert _plan(path).sizing is None
