@@ -92,10 +92,11 @@ def size(
     from planner.outputs import atomic_folder
     from planner.report.html import CAUTION
     from planner.report.sizing_report import roster_view, sentence, write_sizing_files
-    from planner.runs.sizing import size_scenario
+    from planner.runs.sizing import check_measure, size_scenario
 
     plan, history = load_plan(scenario)
     request = sizing_request(plan, measure, target, shift_target)
+    check_measure(plan, request)
     folder_name = output_target(out, plan, "size")
     options = run_options(paths, seed, engine, jobs, scheduler)
     defaults = f" (by default: {request.defaults_text()})" if request.defaults else ""

@@ -143,6 +143,15 @@ def _chart_counts(tried, answer: int, others: list[int], floor: int) -> list[int
     return [b for b in range(low, high + 1, every) if b not in tried]
 
 
+def check_measure(scenario: Scenario, target: SizingTarget) -> None:
+    """Refuse hours waited as the measure of a ward whose patients never wait."""
+    if target.measure == "wait_hours" and scenario.ward.policy != "wait":
+        raise PlannerError(
+            f'{scenario.source}: sizing.measure: wait_hours needs beds.policy = "wait" '
+            f"(with {scenario.ward.policy!r} nobody waits); choose no_bed_week or no_bed_share"
+        )
+
+
 def size_scenario(
     scenario: Scenario,
     target: SizingTarget,
@@ -157,11 +166,7 @@ def size_scenario(
     options = (options or RunOptions()).with_defaults(
         scenario.paths, scenario.seed, scenario.engine
     )
-    if target.measure == "wait_hours" and scenario.ward.policy != "wait":
-        raise PlannerError(
-            f'{scenario.source}: sizing.measure: wait_hours needs beds.policy = "wait" '
-            f"(with {scenario.ward.policy!r} nobody waits); choose no_bed_week or no_bed_share"
-        )
+    check_measure(scenario, target)
     history = load_history(scenario) if history is None else history
     if forecast is None:
         forecast = forecast_step(scenario, history, options.paths, options.seed)
