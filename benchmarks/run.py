@@ -77,6 +77,7 @@ def commands() -> None:
 
     run = planner("run", "--out", str(out / "run"), "--overwrite")
     compare = planner("compare", *DEMO_PLANS, "--out", str(out / "compare"), "--overwrite")
+    size = planner("size", "--paths", "2000", "--out", str(out / "size"), "--overwrite")
     reference = best(["-c", "import numpy, pandas"], environment)
     rows = [
         ("python -c 'import numpy, pandas' (reference)", reference),
@@ -87,6 +88,7 @@ def commands() -> None:
         ("planner run --paths 10000, cached", best([*run, "--paths", "10000"], environment)),
         ("planner compare (4 demo plans), not cached", best(compare, environment, empty_cache)),
         ("planner compare (4 demo plans), cached", best(compare, environment)),
+        ("planner size --paths 2000, cached", best(size, environment)),
     ]
     numba_cache = tempfile.mkdtemp(prefix="numba-cache-")
     first = fresh_process(run, {**environment, "NUMBA_CACHE_DIR": numba_cache})

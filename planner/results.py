@@ -16,6 +16,7 @@ from planner.records.ward_history import WardHistory
 from planner.scenario import Scenario
 from planner.simulate.model import WardModel
 from planner.simulate.result import WardResult
+from planner.summaries.sizing import ClassicalSizes, SizingTarget
 from planner.summaries.weekly import Outlook, WeeklyPaths
 
 #: The file beside a hindcast's tables that ties them to one setup (see
@@ -37,6 +38,31 @@ class RunSummary:
 
 
 @dataclass(frozen=True)
+class SizingResult:
+    """The fewest beds that keep ``target`` in every forecast week from ``start``, found on
+    common random numbers (:mod:`planner.runs.sizing`): ``beds_needed`` (the ward's answer),
+    ``near_target`` (a different seed could move it by one bed), ``table`` (sizing.csv: the
+    beds each week needs and the answer, with risks, errors and classical sizes),
+    ``candidates`` (every bed count simulated, per week: risk and error), ``classical`` (the
+    classical sizes at the horizon's mean load), ``roster`` (roster.csv: nurses needed per
+    shift and weekday with ``roster_beds`` beds), ``current_beds`` (the scenario's)."""
+
+    scenario: Scenario
+    target: SizingTarget
+    start: pd.Timestamp
+    current_beds: int
+    beds_needed: int
+    near_target: bool
+    table: pd.DataFrame
+    candidates: pd.DataFrame
+    classical: ClassicalSizes
+    roster: pd.DataFrame
+    roster_beds: int
+    paths: int
+    seed: int
+
+
+@dataclass(frozen=True)
 class RunResult:
     """Everything one run produced, from the forecast to the weekly measures per path and
     the summary tables."""
@@ -51,6 +77,7 @@ class RunResult:
     paths: int
     seed: int
     timings: dict[str, float]
+    sizing: SizingResult | None = None
 
 
 @dataclass(frozen=True)

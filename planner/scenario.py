@@ -40,6 +40,7 @@ from planner.simulate.settings import (
 )
 from planner.simulate.staffing import validate_staffing
 from planner.summaries.comparison import Costs
+from planner.summaries.sizing import SizingTarget, sizing_target
 
 DEMO_NAME = "baseline.toml"
 
@@ -66,6 +67,8 @@ class Scenario:
     history_format: HistoryFormat = field(default_factory=HistoryFormat)
     discharge: DischargeSettings = field(default_factory=DischargeSettings)
     planned: PlannedSettings = field(default_factory=PlannedSettings)
+    #: The [sizing] target, None when the scenario has no [sizing] table.
+    sizing: SizingTarget | None = None
 
     @property
     def horizon_days(self) -> int:
@@ -272,4 +275,5 @@ def load_scenario(path: str | Path | None = None) -> Scenario:
             document, where, history["episodes"] is not None and stay.mean is None
         ),
         planned=read_planned(document, where),
+        sizing=sizing_target(document["sizing"], where) if "sizing" in document else None,
     )

@@ -597,6 +597,41 @@ TABLES = (
         ),
     ),
     Table(
+        "sizing",
+        "The risk the ward should stay under: `planner size` finds the fewest beds (and "
+        "nurses per shift and weekday) that keep it there in every forecast week, and "
+        "`planner run` quotes that answer in its headline when the scenario has this table.",
+        (
+            Key(
+                "measure",
+                "str",
+                "no_bed_week",
+                "Risk measure for beds: the chance that at least one patient finds no free "
+                "bed in a week, the share of a week's patients who find no free bed, or the "
+                "expected hours waited for a bed by a week's patients (policy wait only).",
+                choices=("no_bed_week", "no_bed_share", "wait_hours"),
+            ),
+            Key(
+                "target",
+                "float",
+                None,
+                "Largest acceptable value of the measure in every week: a chance or share "
+                "(0.05 = 5%, below 1) for no_bed_week and no_bed_share, hours for wait_hours "
+                "(default: 0.05, or 24 hours for wait_hours).",
+                above=0.0,
+            ),
+            Key(
+                "shift_target",
+                "float",
+                0.05,
+                "Largest acceptable chance that a shift is short of registered nurses, for "
+                "the roster found for each shift and weekday.",
+                "fraction",
+                above=0.0,
+            ),
+        ),
+    ),
+    Table(
         "costs",
         "Optional unit costs for comparing plans (any currency).",
         (

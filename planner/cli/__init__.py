@@ -2,8 +2,8 @@
 print or write its result. Every user error is one line on stderr and exit status 2.
 
 The group and shared options are in :mod:`planner.cli.base`, the commands in
-:mod:`planner.cli.forecasting` and :mod:`planner.cli.planning`; they are added to the group
-here."""
+:mod:`planner.cli.forecasting`, :mod:`planner.cli.planning` and :mod:`planner.cli.sizing`;
+they are added to the group here."""
 
 import gc
 import os
@@ -12,8 +12,9 @@ from planner.allocator import keep_freed_memory
 from planner.cli.base import cli
 from planner.cli.forecasting import backtest, check, forecast
 from planner.cli.planning import compare, hindcast, run, simulate
+from planner.cli.sizing import size
 
-for command in (check, forecast, backtest, simulate, run, compare, hindcast):
+for command in (check, forecast, backtest, simulate, run, compare, size, hindcast):
     cli.add_command(command)
 
 #: BLAS threads: the matrices here are small, and threaded BLAS on them is slower, badly so

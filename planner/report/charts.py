@@ -261,3 +261,26 @@ def discharge_pattern(daily: pd.DataFrame, hour_profile: np.ndarray | None) -> b
     for panel in axes[0]:
         panel.grid(axis="y", alpha=0.3)
     return png(figure, SIDE_BY_SIDE)
+
+
+def risk_against_beds(candidates: pd.DataFrame, target: float, marks: dict[str, int], label: str):
+    """The worst week's risk (column ``risk`` of the candidates table, with 95% error bars of
+    1.96 standard errors) against beds, the ``target`` as a dashed line, and each of ``marks``
+    (name -> beds: the answer, the current beds, the classical sizes) as a labelled line."""
+    worst = candidates.loc[candidates.groupby("beds")["risk"].idxmax()]
+    figure, axes = plt.subplots(figsize=(10, 4))
+    axes.errorbar(worst["beds"], worst["risk"], yerr=1.96 * worst["risk_se"], color=LINE,
+                  marker="o", markersize=3, capsize=2, label="worst week, simulated")  # fmt: skip
+    axes.axhline(target, color="black", linestyle="--", linewidth=1, label="target")
+    top = float(max(worst["risk"].max(), target)) * 1.05
+    styles = (":", "-.", "--", "-")
+    for number, (name, beds) in enumerate(marks.items()):
+        axes.axvline(beds, color=GREY, linestyle=styles[number % 4], linewidth=1)
+        axes.text(beds, top * (0.95 - 0.07 * number), f" {name}: {beds}", fontsize=8)
+    axes.set_ylim(0, top)
+    axes.set_xlabel("beds")
+    axes.set_ylabel(label)
+    title(axes, "Risk against beds, same simulated patients for every count")
+    axes.legend(loc="center right", fontsize=8)
+    axes.grid(alpha=0.3)
+    return png(figure, LABEL)

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from planner.report import charts, html
+from planner.report import charts, html, sizing_report
 from planner.report.files import run_record, write_csv, write_json
 from planner.report.html import CACHED_BACKTEST
 from planner.results import HindcastQuote, RunResult
@@ -88,13 +88,16 @@ def page_table(weekly: pd.DataFrame) -> pd.DataFrame:
 
 
 def headline(run: RunResult) -> str:
-    """One sentence: the chance of at least one bed shortfall in the first weeks."""
+    """One sentence: the chance of at least one bed shortfall in the first weeks; then, when
+    the scenario asks for a target, the beds it needs (:func:`sizing_report.sentence`)."""
     outlook = run.summary.outlook
+    sized = "" if run.sizing is None else " " + sizing_report.sentence(run.sizing)
     return (
         f"Chance of at least one moment with no free bed in the next {outlook.weeks} weeks: "
         f"{outlook.p_bed_shortfall:.0%} (Monte Carlo standard error "
         f"{outlook.p_bed_shortfall_se:.1%}); on average "
         f"{outlook.expected_patients_affected:.1f} patients would find no free bed in that time."
+        + sized
     )
 
 
@@ -249,6 +252,10 @@ def write_run_files(run: RunResult, folder: Path, hindcast: HindcastQuote | None
         "nurses.png": charts.nurses_against_roster(shifts),
         "discharges.png": charts.discharge_pattern(daily, _hours(run)),
     }
+    if run.sizing is not None:
+        write_csv(run.sizing.table, folder / "sizing.csv")
+        write_csv(run.sizing.roster, folder / "roster.csv")
+        pictures["sizing.png"] = sizing_report.sizing_picture(run.sizing)
     for name, png in pictures.items():
         (folder / name).write_bytes(png)
     (folder / "report.html").write_text(run_page(run, pictures, hindcast))
@@ -270,6 +277,20 @@ def write_run_files(run: RunResult, folder: Path, hindcast: HindcastQuote | None
     write_json(record, folder / "run.json")
 
 
+def _sizing_sections(run: RunResult, pictures: dict[str, bytes]) -> list[tuple[str, str]]:
+    """The beds and nurses the scenario's [sizing] target needs, when it gives one."""
+    if run.sizing is None:
+        return []
+    body = (
+        f"<p>{html.escape(sizing_report.sentence(run.sizing))}</p>"
+        + html.image(pictures["sizing.png"], "risk against beds")
+        + html.table(sizing_report.week_view(run.sizing))
+        + f"<p>Nurses needed with {run.sizing.roster_beds} beds (roster.csv):</p>"
+        + html.table(sizing_report.roster_view(run.sizing.roster))
+    )
+    return [("What the ward needs", body)]
+
+
 def run_page(
     run: RunResult, pictures: dict[str, bytes], hindcast: HindcastQuote | None = None
 ) -> str:
@@ -288,6 +309,7 @@ def run_page(
         ("Admissions", html.image(pictures["admissions.png"], "admissions fan chart")),
         ("Nurses", html.image(pictures["nurses.png"], "nurses required against rostered")),
         ("Discharges", html.image(pictures["discharges.png"], "discharges by weekday and hour")),
+        *_sizing_sections(run, pictures),
         ("Key assumptions", html.facts(assumptions(run, hindcast))),
     ]
     return html.page(f"Ward plan: {scenario.name}", sections, subtitle)

@@ -44,9 +44,15 @@ def _check_alike(scenarios: list[Scenario]) -> None:
                 )
 
 
+def _plan(file: Path):
+    """A compared plan: its scenario without the [sizing] target (a comparison does not size
+    its plans; `planner size` does)."""
+    return replace(load_scenario(file), sizing=None)
+
+
 def _run_one(file: Path, options: RunOptions) -> RunResult:
     """One scenario of a comparison, as run on a cluster worker."""
-    return run_scenario(load_scenario(file), options)
+    return run_scenario(_plan(file), options)
 
 
 def run_all(files: list[Path], options: RunOptions, progress=None) -> tuple[RunResult, ...]:
@@ -55,7 +61,7 @@ def run_all(files: list[Path], options: RunOptions, progress=None) -> tuple[RunR
     and fitted stays where the history and settings agree; ``progress(label)`` gives the
     progress callback of each plan. With a scheduler in ``options``, each scenario runs on a
     dask worker (the forecast is then made on each worker, with the same result)."""
-    scenarios = [load_scenario(file) for file in files]
+    scenarios = [_plan(file) for file in files]
     _check_alike(scenarios)
     first = scenarios[0]
     options = options.with_defaults(first.paths, first.seed, first.engine)

@@ -219,7 +219,9 @@ def run_scenario(
     default to the scenario's). ``history`` is the scenario's history when it has been read
     already; ``forecast`` reuses sample paths made earlier with the same history, forecast
     settings, paths and seed (common random numbers); ``model`` reuses a ward model made from
-    the same history and stay settings (its beds and rota are replaced by the scenario's)."""
+    the same history and stay settings (its beds and rota are replaced by the scenario's).
+    A scenario with a ``[sizing]`` table is also sized on the same paths
+    (:func:`planner.runs.sizing.size_scenario`)."""
     options = (options or RunOptions()).with_defaults(
         scenario.paths, scenario.seed, scenario.engine
     )
@@ -242,6 +244,15 @@ def run_scenario(
     weekly = weekly_paths(ward, history.start, model.planned is not None)
     summary = summarise_run(ward, weekly, history)
     timings["summarise_s"] = time.perf_counter() - clock
+    sizing = None
+    if scenario.sizing is not None:  # the scenario asks for a target: size on the same paths
+        from planner.runs.sizing import size_scenario
+
+        clock = time.perf_counter()
+        sizing = size_scenario(
+            scenario, scenario.sizing, options, history=history, forecast=forecast, model=model
+        )
+        timings["sizing_s"] = time.perf_counter() - clock
     return RunResult(
         scenario=scenario,
         history=history,
@@ -253,6 +264,7 @@ def run_scenario(
         paths=options.paths,
         seed=options.seed,
         timings=timings,
+        sizing=sizing,
     )
 
 

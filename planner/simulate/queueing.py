@@ -51,6 +51,45 @@ def erlang_c(servers: int, load: float) -> float:
     return float(blocking / (1.0 - rho * (1.0 - blocking)))
 
 
+#: Mean bed occupancy of the classical fixed-occupancy sizing rule.
+OCCUPANCY_RULE = 0.85
+
+
+def _check_share(target: float, name: str = "target") -> float:
+    if not np.isfinite(target) or not 0 < target < 1:
+        raise PlannerError(f"{name} must be a share between 0 and 1 (exclusive), got {target!r}")
+    return float(target)
+
+
+def erlang_loss_beds(load: float, target: float) -> int:
+    """Erlang loss sizing: the fewest beds c with B(c, ``load``) <= ``target``, the share of
+    patients finding no free bed for stationary Poisson arrivals offering ``load`` erlangs
+    (arrivals per day x mean stay in days), whatever the stay distribution (M/G/c/c)."""
+    _check_servers_load(0, load)
+    _check_share(target)
+    servers, blocking = 0, 1.0
+    while blocking > target:
+        servers += 1
+        blocking = load * blocking / (servers + load * blocking)
+    return servers
+
+
+def occupancy_rule_beds(load: float, occupancy: float = OCCUPANCY_RULE) -> int:
+    """Beds for a fixed mean occupancy: ceil(``load`` / ``occupancy``), with ``load`` the mean
+    census (arrivals per day x mean stay in days, Little's law)."""
+    _check_servers_load(0, load)
+    _check_share(occupancy, "occupancy")
+    return int(np.ceil(round(load / occupancy, 9)))
+
+
+def carried_occupancy(servers: int, load: float) -> float:
+    """Mean occupancy of ``servers`` beds offered ``load`` erlangs when turned-away patients
+    are lost: the carried load a (1 - B(c, a)) divided by c (a share of the beds)."""
+    if servers == 0:
+        return 0.0
+    return float(load * (1.0 - erlang_b(servers, load)) / servers)
+
+
 def integrated_survival(
     survival: Callable[[np.ndarray], np.ndarray], upto_days: float, points: int = 20_001
 ) -> tuple[np.ndarray, np.ndarray]:

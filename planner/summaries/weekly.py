@@ -5,6 +5,7 @@ and week:
 
 * bed shortfall: at some moment of the week a patient needed a bed and none was free (the
   patient waited, policy "wait", or was placed elsewhere, policy "divert");
+* admissions: patients arriving that week;
 * patients affected: patients arriving that week who waited or were diverted;
 * wait hours: hours waited by patients arriving that week;
 * peak census: the most beds occupied at any moment of the week;
@@ -38,6 +39,7 @@ class WeeklyPaths:
 
     week_start: pd.DatetimeIndex
     bed_shortfall: np.ndarray
+    admissions: np.ndarray
     patients_affected: np.ndarray
     diverted: np.ndarray
     wait_hours: np.ndarray
@@ -88,6 +90,7 @@ def weekly_paths(
     return WeeklyPaths(
         week_start=pd.date_range(start, periods=weeks, freq="7D"),
         bed_shortfall=patients_affected > 0,
+        admissions=_weeks(grid(result.admissions), "sum"),
         patients_affected=patients_affected,
         diverted=_weeks(grid(result.diverted), "sum"),
         wait_hours=_weeks(grid(result.wait_hours), "sum"),

@@ -38,3 +38,23 @@ STAFFING_EXAMPLES = (
     (28, 7.0, 2, 4),  # night shift at 1:7 (Queensland)
     (5, 7.0, 2, 2),  # few patients: NICE SG1 minimum of 2 registered nurses
 )
+
+#: Erlang B inverse: (load in erlangs, share of patients turned away, fewest beds c with
+#: B(c, a) <= share, B at c beds, B at c - 1 beds, occupancy carried a (1 - B) / c).
+#: Source: computed with the recursion above; project REFERENCES.md, "Sizing, pooling and the
+#: ward's operations" (the last two rows computed here the same way and cross-checked with
+#: the truncated Poisson of scipy.stats).
+ERLANG_B_INVERSE = (
+    (5.0, 0.05, 9, 0.0374578, 0.0700479, 0.53),
+    (10.0, 0.05, 15, 0.0364969, 0.0568191, 0.64),
+    (20.0, 0.05, 26, 0.0371952, 0.0502218, 0.74),
+    (20.0, 0.01, 30, 0.0084575, 0.0127945, 0.66),
+    (50.0, 0.05, 56, 0.0457924, 0.0537488, 0.85),
+    (3.0, 0.10, 6, 0.0521571, 0.1100543, 0.47),
+)
+
+#: Occupancy reachable at 5% of patients turned away, by ward size: (beds, occupancy).
+#: Source: de Bruin, Bekker, van Zanten & Koole, Ann. Oper. Res. 178 (2010) 23-43, "about 59%
+#: for 10 beds ... 90.5% for 100" (as quoted in REFERENCES.md; the values there were computed
+#: from Erlang B).
+DE_BRUIN_OCCUPANCY_AT_5_PERCENT = ((10, 0.59), (20, 0.72), (50, 0.85), (100, 0.905))
