@@ -111,6 +111,9 @@ def _absolute_paths(document: dict[str, Any], folder: Path) -> None:
     for name in ("admissions", "episodes"):
         if name in history:
             history[name] = str((folder / history[name]).resolve())
+    planned = document.get("planned", {})
+    if isinstance(planned, dict) and isinstance(planned.get("bookings"), str):
+        planned["bookings"] = str((folder / planned["bookings"]).resolve())
 
 
 def _merge(base: dict[str, Any], override: dict[str, Any]) -> dict[str, Any]:

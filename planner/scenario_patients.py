@@ -4,6 +4,7 @@ and ``[planned]``, into their settings (:mod:`planner.simulate.settings`)."""
 from __future__ import annotations
 
 import math
+from pathlib import Path
 from typing import Any
 
 from planner.errors import PlannerError
@@ -74,15 +75,17 @@ def read_planned(document: dict[str, Any], where: str) -> PlannedSettings:
         given = "stay_mean" if sd is None else "stay_sd"
         other = "stay_sd" if sd is None else "stay_mean"
         raise PlannerError(f"{where}: planned.{given}: given without planned.{other}")
-    booked = values["list"]
-    if booked is None:
+    booked, bookings = values["list"], values["bookings"]
+    if booked is None and bookings is None:
         if "planned" in document:
-            raise PlannerError(f"{where}: planned.list: required in a [planned] table")
+            raise PlannerError(f"{where}: planned.list: required in a [planned] table without "
+                               f"planned.bookings")  # fmt: skip
         return PlannedSettings()
     hour = clock_hours(values["admission_time"])
     if hour >= 24:
         raise PlannerError(f"{where}: planned.admission_time: must be before 24:00")
     return PlannedSettings(
-        tuple(int(n) for n in booked), hour, values["when_full"],
+        tuple(int(n) for n in booked or (0,) * 7), hour, values["when_full"],
         None if mean is None else float(mean), None if sd is None else float(sd),
+        None if bookings is None else Path(bookings),
     )  # fmt: skip

@@ -463,7 +463,7 @@ TABLES = (
                 "roster",
                 None,
                 "Planned patients booked each weekday, Monday to Sunday (no planned stream "
-                "when not given).",
+                "when neither it nor bookings is given).",
                 "patients",
             ),
             Key("admission_time", "hour", "08:00", "When the planned patients arrive."),
@@ -486,6 +486,14 @@ TABLES = (
                 above=0.0,
             ),
             Key("stay_sd", "float", None, "Standard deviation with stay_mean.", "days", above=0.0),
+            Key(
+                "bookings",
+                "path",
+                None,
+                "A file of single bookings (CSV: date YYYY-MM-DD, time HH:MM, optionally "
+                "expected_stay in days) admitted at their own times besides the weekly list; "
+                "an expected stay rescales the planned stay distribution to that mean.",
+            ),
         ),
     ),
     Table(

@@ -200,3 +200,79 @@ def test_run_with_a_planned_list_reports_cancellations(tmp_path):
     booked = weekly["expected_planned_admitted"] + weekly["expected_cancelled"]
     np.testing.assert_allclose(booked, 10.0)
     assert "Planned admissions" in (out / "report.html").read_text()
+
+
+# --- single bookings --------------------------------------------------------------------------
+
+
+def bookings(*rows: tuple[str, float]) -> pd.DataFrame:
+    return pd.DataFrame({"at": pd.to_datetime([at for at, _ in rows]),
+                         "expected_stay": [stay for _, stay in rows]})  # fmt: skip
+
+
+@pytest.mark.parametrize("engine", ENGINES)
+def test_worked_example_bookings(engine):
+    # Worked by hand: 2 beds, no list, three bookings on Monday 1 January 2024 at 09:00
+    # (expected stay 1 day), 10:00 (2 days) and 11:00 (none stated: the planned stay, exactly
+    # 1.5 days); a booking made before the window (31 December) is ignored. The first two get
+    # beds and leave on Tuesday 09:00 and Wednesday 10:00; the third is cancelled.
+    planned = PlannedList((0,) * 7, 8.0, FixedStay(1.5), "cancel",
+                          bookings(("2024-01-01 10:00", 2.0), ("2024-01-01 09:00", 1.0),
+                                   ("2024-01-01 11:00", math.nan),
+                                   ("2023-12-31 09:00", 1.0)))  # fmt: skip
+    model = WardModel(START, WardSettings(beds=2), FixedStay(2.0), NONE_IN, UNIFORM,
+                      planned=planned)  # fmt: skip
+    result = simulate(engine, model, np.zeros((1, 4), dtype=np.int64))
+    assert result.census[0].tolist() == [2, 1, 0, 0]
+    assert result.discharges[0].tolist() == [0, 1, 1, 0]
+    assert result.cancelled[0].tolist() == [1, 0, 0, 0]
+
+
+def test_list_and_bookings_are_merged_in_time():
+    planned = PlannedList((1, 0, 0, 0, 0, 0, 0), 8.0, FixedStay(2.0), "cancel",
+                          bookings(("2024-01-01 07:00", 4.0), ("2024-01-01 08:00", math.nan),
+                                   ("2024-01-20 08:00", 1.0)))  # fmt: skip
+    hours, factor = planned.schedule(START, 7)
+    assert hours.tolist() == [7.0, 8.0, 8.0]  # the list's 08:00 patient before the booking's
+    assert factor.tolist() == [2.0, 1.0, 1.0]
+
+
+BOOKED = "[planned]\nbookings = 'bookings.csv'\nstay_mean = 2.0\nstay_sd = 1.0\n"
+BOOKING_CASES = [
+    Case("bookings without time", ("bookings.csv: line 1: missing column(s) time",),
+         {"ward.csv": GOOD, "bookings.csv": "date\n2026-05-01\n"}, plan(tables=BOOKED),
+         "bookings.csv"),
+    Case("booking date", ("line 3: date '01/05/2026' is not a date",),
+         {"ward.csv": GOOD, "bookings.csv": "date,time\n2026-05-01,08:00\n01/05/2026,08:00\n"},
+         plan(tables=BOOKED), "bookings.csv"),
+    Case("booking time", ("line 2: time '8am' is not a time",),
+         {"ward.csv": GOOD, "bookings.csv": "date,time\n2026-05-01,8am\n"}, plan(tables=BOOKED),
+         "bookings.csv"),
+    Case("booking stay", ("line 2: expected_stay '-1' is not a number of days > 0",),
+         {"ward.csv": GOOD, "bookings.csv": "date,time,expected_stay\n2026-05-01,08:00,-1\n"},
+         plan(tables=BOOKED), "bookings.csv"),
+    Case("bookings empty", ("no bookings below the header",),
+         {"ward.csv": GOOD, "bookings.csv": "date,time\n"}, plan(tables=BOOKED), "bookings.csv"),
+    Case("bookings missing", ("bookings file not found",),
+         {"ward.csv": GOOD}, plan(tables=BOOKED), "bookings.csv"),
+]  # fmt: skip
+
+
+@pytest.mark.parametrize("case", BOOKING_CASES, ids=[case.name for case in BOOKING_CASES])
+def test_bad_bookings(tmp_path, case):
+    test_bad_planned_keys(tmp_path, case)
+
+
+def test_run_with_bookings(tmp_path):
+    rows = "".join(f"2026-05-{day:02d},09:30,3.0\n" for day in range(1, 29))
+    case = Case("ok", (), {"ward.csv": GOOD, "bookings.csv": "date,time,expected_stay\n" + rows},
+                plan(tables=BOOKED))  # fmt: skip
+    given = write_case(tmp_path / "ward", case)
+    check = CliRunner().invoke(cli, ["check", str(given)])
+    assert check.exit_code == 0, check.output
+    assert "28 single bookings" in check.output
+    result = CliRunner().invoke(cli, ["run", str(given), "--out", str(tmp_path / "out")])
+    assert result.exit_code == 0, result.output
+    weekly = pd.read_csv(tmp_path / "out" / "weekly.csv")
+    booked = weekly["expected_planned_admitted"] + weekly["expected_cancelled"]
+    assert booked.sum() > 0

@@ -41,7 +41,7 @@ def load_history(scenario: Scenario) -> WardHistory:
     episodes = read_episodes(scenario.episodes_file, form) if scenario.episodes_file else None
     if scenario.admissions_file is not None:
         admissions = read_daily_admissions(scenario.admissions_file, form)
-    elif scenario.planned.per_weekday is not None:
+    elif scenario.planned.given:
         admissions = _emergency_admissions(scenario, episodes)
     else:
         admissions = admissions_from_episodes(episodes)
@@ -136,7 +136,7 @@ def check_scenario(path: Path | None) -> list[str]:
         )
     for table in (history.admissions, history.episodes):
         lines += [] if table is None else list(table.attrs.get("notes", ()))
-    if scenario.planned.per_weekday is not None:
+    if scenario.planned.given:
         emergency = history.of_method("emergency")
         lines.append(f"discharges: {describe_discharges(*discharge_timing(scenario, emergency))}")
         lines.append(

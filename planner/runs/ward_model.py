@@ -6,6 +6,7 @@ stays."""
 from __future__ import annotations
 
 from planner.errors import PlannerError
+from planner.records.bookings import read_bookings
 from planner.records.ward_history import WardHistory
 from planner.scenario import Scenario
 from planner.simulate.discharge_fit import DischargeTiming, fit_discharge_timing
@@ -25,7 +26,7 @@ def ward_model(scenario: Scenario, history: WardHistory) -> WardModel:
     from planner.simulate.arrivals import hour_profile
     from planner.simulate.stay_fit import stay_distribution
 
-    planned = scenario.planned.per_weekday is not None
+    planned = scenario.planned.given
     emergency = history.of_method("emergency") if planned else history
     stays, observed = emergency.stays()
     admitted = None if emergency.episodes is None else emergency.episodes["admitted_at"]
@@ -66,7 +67,9 @@ def planned_list(scenario: Scenario, history: WardHistory) -> PlannedList:
                 f"stays; give planned.stay_mean and planned.stay_sd"
             )
         stays = stay_distribution(StaySettings(scenario.stay.model), known, observed)
-    return PlannedList(settings.per_weekday, settings.admission_hour, stays, settings.when_full)
+    bookings = None if settings.bookings is None else read_bookings(settings.bookings)
+    return PlannedList(settings.per_weekday, settings.admission_hour, stays, settings.when_full,
+                       bookings)  # fmt: skip
 
 
 def discharge_timing(

@@ -223,7 +223,11 @@ def draw_inputs(
     # entries starts[i] - offsets[i] to starts[i + 1] - offsets[i + 1] of ``clock``.
     clock = np.empty(starts[-1] - offsets[-1] if calendar else 0)
     planned = model.planned
-    planned_hours = np.zeros(0) if planned is None else planned.hours(model.start, counts.shape[1])
+    planned_hours, factor = (
+        (np.zeros(0), np.ones(0))
+        if planned is None
+        else planned.schedule(model.start, counts.shape[1])
+    )
     planned_u = np.empty((paths if planned else 0, planned_hours.size))
     bounds = zip(starts[:-1].tolist(), starts[1:].tolist(), offsets[:-1].tolist(),
                  offsets[1:].tolist(), strict=True)  # fmt: skip
@@ -249,6 +253,7 @@ def draw_inputs(
                 planned_u[i] = planned.stays.sample(draw, planned_hours.size)
     if planned is not None and planned.stays.inverse_transform:
         planned_u = planned.stays.from_uniforms(1.0 - planned_u.ravel()).reshape(planned_u.shape)
+    planned_u *= factor
     inputs = _emergency_inputs(model, first_path, offsets, counts, (first_stream, stay_u, clock))
     if planned is None:
         return inputs

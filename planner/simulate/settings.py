@@ -7,6 +7,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from datetime import date
+from pathlib import Path
 
 from planner.schema import default
 
@@ -85,13 +86,20 @@ class DischargeSettings:
 class PlannedSettings:
     """The ``[planned]`` table: ``per_weekday`` (7 whole numbers, or None for no planned
     stream), ``admission_hour`` (hours after 00:00), ``when_full`` ("cancel" or "wait"),
-    ``stay_mean``/``stay_sd`` (days; None to learn the stays from planned episodes)."""
+    ``stay_mean``/``stay_sd`` (days; None to learn the stays from planned episodes);
+    ``bookings``: a file of single bookings, or None."""
 
     per_weekday: tuple[int, ...] | None = None
     admission_hour: float = 8.0
     when_full: str = default("planned.when_full")
     stay_mean: float | None = None
     stay_sd: float | None = None
+    bookings: Path | None = None
+
+    @property
+    def given(self) -> bool:
+        """True when the scenario has a planned stream (a list or bookings)."""
+        return self.per_weekday is not None or self.bookings is not None
 
 
 @dataclass(frozen=True)
