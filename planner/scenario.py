@@ -8,7 +8,9 @@ Paths are resolved relative to the file that names them.
 
 from __future__ import annotations
 
+import copy
 import tomllib
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from datetime import date
 from importlib import resources
@@ -73,6 +75,24 @@ class Scenario:
     @property
     def horizon_days(self) -> int:
         return 7 * self.horizon_weeks
+
+    def with_changes(self, changes: Mapping[str, Any]) -> Scenario:
+        """This scenario with keys changed by their dotted names, as a scenario file names
+        them: ``{"beds.base": 30, "discharge.seven_day": 1.0, "name": "30 beds"}``; a table
+        or array of tables given whole (``"staffing.shift": [...]``) replaces it. Paths are
+        relative to the working folder. The result is checked as a scenario file is."""
+        document = copy.deepcopy(self.resolved)
+        given: dict[str, Any] = {}
+        for key, value in changes.items():
+            table, *parts = key.split(".")
+            target = given.setdefault(table, {}) if parts else given
+            for part in parts[:-1]:
+                target = target.setdefault(part, {})
+            target[parts[-1] if parts else table] = value
+        where = f"{self.source} (changed: {', '.join(changes)})"
+        validate(given, where)
+        _absolute_paths(given, Path.cwd())
+        return scenario_from_document(_merge(document, given), self.source)
 
 
 def demo_scenario_path() -> Path:
@@ -245,7 +265,11 @@ def _level_changes(document: dict[str, Any], where: str) -> tuple[LevelChange, .
 def load_scenario(path: str | Path | None = None) -> Scenario:
     """Read, merge and validate a scenario file (default: the bundled demo)."""
     path = demo_scenario_path() if path is None else Path(path)
-    document = read_document(path)
+    return scenario_from_document(read_document(path), path)
+
+
+def scenario_from_document(document: dict[str, Any], path: Path) -> Scenario:
+    """The resolved scenario of a merged, validated ``document`` read from ``path``."""
     where = str(path)
     top = {key.name: document.get(key.name, key.default) for key in TOP}
     history = table_values(document, "history")

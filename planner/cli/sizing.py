@@ -19,18 +19,12 @@ from planner.schema import choices
 
 
 def sizing_request(plan, measure: str | None, target: float | None, shift_target: float | None):
-    """The scenario's [sizing] values with the options given on top; a target given in the
-    scenario for another measure than the one asked for is not carried over."""
-    from planner.summaries.sizing import sizing_target
+    """The scenario's [sizing] values with the options given on top
+    (:func:`planner.summaries.sizing.requested_target`)."""
+    from planner.summaries.sizing import requested_target
 
-    values = dict(plan.resolved.get("sizing", {}))
-    if measure is not None and measure != values.get("measure", "no_bed_week"):
-        values.pop("target", None)
-    given = {"measure": measure, "target": target, "shift_target": shift_target}
-    values |= {name: value for name, value in given.items() if value is not None}
-    named = [f"--{name.replace('_', '-')}" for name, value in given.items() if value is not None]
-    where = f"{plan.source}" + (f" with {', '.join(named)}" if named else "")
-    return sizing_target(values, where)
+    return requested_target(plan, {"measure": measure, "target": target,
+                                   "shift_target": shift_target}, "--")  # fmt: skip
 
 
 def _worst_weeks(result) -> str:

@@ -44,33 +44,40 @@ def _check_alike(scenarios: list[Scenario]) -> None:
                 )
 
 
-def _plan(file: Path):
-    """A compared plan: its scenario without the [sizing] target (a comparison does not size
-    its plans; `planner size` does)."""
-    return replace(load_scenario(file), sizing=None)
+def _plan(plan: Path | Scenario) -> Scenario:
+    """A compared plan (a scenario file, or a scenario read already): its scenario without
+    the [sizing] target (a comparison does not size its plans; `planner size` does)."""
+    scenario = plan if isinstance(plan, Scenario) else load_scenario(plan)
+    return replace(scenario, sizing=None)
 
 
-def _run_one(file: Path, options: RunOptions) -> RunResult:
+def _run_one(plan: Scenario, options: RunOptions) -> RunResult:
     """One scenario of a comparison, as run on a cluster worker."""
-    return run_scenario(_plan(file), options)
+    return run_scenario(plan, options)
 
 
-def run_all(files: list[Path], options: RunOptions, progress=None) -> tuple[RunResult, ...]:
+def run_all(
+    files: list[Path | Scenario], options: RunOptions, progress=None, frames=None
+) -> tuple[RunResult, ...]:
     """Run every scenario with common random numbers (the first scenario's paths, seed and
     engine unless ``options`` gives them: every plan runs on one engine), reusing forecasts
     and fitted stays where the history and settings agree; ``progress(label)`` gives the
     progress callback of each plan. With a scheduler in ``options``, each scenario runs on a
-    dask worker (the forecast is then made on each worker, with the same result)."""
+    dask worker (the forecast is then made on each worker, with the same result). ``files``
+    may also hold scenarios read already; ``frames`` (:class:`HistoryFrames`) replace every
+    plan's history files."""
     scenarios = [_plan(file) for file in files]
     _check_alike(scenarios)
     first = scenarios[0]
     options = options.with_defaults(first.paths, first.seed, first.engine)
-    histories = [load_history(scenario) for scenario in scenarios]  # bad input first
+    histories = [load_history(scenario, frames) for scenario in scenarios]  # bad input first
     if options.scheduler is not None:
         from planner.simulate.distributed import map_chunks
 
         one_process = replace(options, jobs=1, scheduler=None, progress=None)
-        arguments = [(scenario.source, one_process) for scenario in scenarios]
+        if frames is not None:
+            raise PlannerError("compare: histories given as tables run locally, not on a cluster")
+        arguments = [(scenario, one_process) for scenario in scenarios]
         return tuple(map_chunks(options.scheduler, _run_one, arguments))
     forecasts: dict[tuple, object] = {}
     models: dict[tuple, object] = {}
@@ -90,11 +97,14 @@ def run_all(files: list[Path], options: RunOptions, progress=None) -> tuple[RunR
     return tuple(runs)
 
 
-def compare_scenarios(files: list[Path], options: RunOptions, progress=None) -> Comparison:
-    """Run and compare scenarios (the first is the reference)."""
+def compare_scenarios(
+    files: list[Path | Scenario], options: RunOptions, progress=None, frames=None
+) -> Comparison:
+    """Run and compare scenarios (the first is the reference); ``files`` and ``frames`` as
+    for :func:`run_all`."""
     if len(files) < 2:
         raise PlannerError("compare: give at least two scenario files")
-    runs = run_all(files, options, progress)
+    runs = run_all(files, options, progress, frames)
     plans = [
         PlanPaths(run.scenario.name, run.scenario.costs, run.weekly, run.summary.weekly)
         for run in runs

@@ -19,6 +19,7 @@ from planner.records.files import (
     read_daily_admissions,
     read_episodes,
 )
+from planner.records.frames import HistoryFrames
 from planner.records.ward_history import WardHistory
 from planner.results import RunResult, RunSummary
 from planner.runs.ward_model import discharge_timing, planned_list, ward_model
@@ -35,15 +36,22 @@ RECENT_WEEKS = 8
 EPISODES_LAG = pd.Timedelta(days=3)
 
 
-def load_history(scenario: Scenario) -> WardHistory:
-    """Read and cross-check the scenario's history files."""
+def load_history(scenario: Scenario, frames: HistoryFrames | None = None) -> WardHistory:
+    """Read and cross-check the scenario's history files, or, when ``frames`` are given, use
+    them instead of every history file (the Python interface)."""
     form = scenario.history_format
-    episodes = read_episodes(scenario.episodes_file, form) if scenario.episodes_file else None
-    if scenario.admissions_file is not None:
-        admissions = read_daily_admissions(scenario.admissions_file, form)
-    elif scenario.planned.given:
-        admissions = _emergency_admissions(scenario, episodes)
+    if frames is not None:
+        episodes, admissions = frames.checked_episodes(), frames.checked_admissions()
+        if episodes is None and admissions is None:
+            raise PlannerError("history: give admissions or episodes")
     else:
+        episodes = read_episodes(scenario.episodes_file, form) if scenario.episodes_file else None
+        admissions = None
+        if scenario.admissions_file is not None:
+            admissions = read_daily_admissions(scenario.admissions_file, form)
+    if admissions is None and scenario.planned.given:
+        admissions = _emergency_admissions(scenario, episodes)
+    elif admissions is None:
         admissions = admissions_from_episodes(episodes)
     first_free = admissions.index[-1] + pd.Timedelta(days=1)
     start = first_free if scenario.start is None else pd.Timestamp(scenario.start)
@@ -52,15 +60,16 @@ def load_history(scenario: Scenario) -> WardHistory:
             f"{scenario.source}: start: {start.date()} is inside the history, which runs to "
             f"{admissions.index[-1].date()}; the forecast must start after it"
         )
+    named = "episodes" if frames is not None else scenario.episodes_file
     if episodes is not None and episodes_end(episodes) >= first_free:
         late = episodes_end(episodes).date()
         raise PlannerError(
-            f"{scenario.episodes_file}: has records on {late}, after the admissions history "
+            f"{named}: has records on {late}, after the admissions history "
             f"ends ({admissions.index[-1].date()})"
         )
     if episodes is not None and episodes_end(episodes) < first_free - EPISODES_LAG:
         raise PlannerError(
-            f"{scenario.episodes_file}: records end on {episodes_end(episodes).date()}, "
+            f"{named}: records end on {episodes_end(episodes).date()}, "
             f"before the admissions history ({admissions.index[-1].date()}); the patients on "
             f"the ward at the start would be missed: give episodes up to the same day"
         )

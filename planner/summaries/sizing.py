@@ -102,6 +102,22 @@ def sizing_target(values: Mapping[str, object], where: str) -> SizingTarget:
     return SizingTarget(measure, target, shift_target, missing)
 
 
+def requested_target(plan, given: Mapping[str, object], prefix: str = "") -> SizingTarget:
+    """The ``plan``'s (a scenario's) [sizing] values with the ``given`` ones (measure, target,
+    shift_target; None for not given) on top; a target the scenario sets for another measure
+    than the one asked for is not carried over. Messages name the plan's file and the given
+    values (``prefix`` before each name: "--" for command-line options)."""
+    values = dict(plan.resolved.get("sizing", {}))
+    measure = given.get("measure")
+    if measure is not None and measure != values.get("measure", "no_bed_week"):
+        values.pop("target", None)
+    values |= {name: value for name, value in given.items() if value is not None}
+    named = [f"{prefix}{name.replace('_', '-') if prefix else name}"
+             for name, value in given.items() if value is not None]  # fmt: skip
+    where = f"{plan.source}" + (f" with {', '.join(named)}" if named else "")
+    return sizing_target(values, where)
+
+
 def weekly_risk(
     ward: WardResult, start: date | pd.Timestamp, measure: str
 ) -> tuple[np.ndarray, np.ndarray]:
