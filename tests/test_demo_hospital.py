@@ -204,6 +204,21 @@ def test_the_fit_recovers_the_afternoon_discharge_hours(ward):
     assert timing.pooled_profile[12:18].sum() > 0.6
 
 
+def test_hindcast_scores_against_the_generators_census(tmp_path, truth, ward="Alder"):
+    """The fast version of the check below: one ward, one past start date, few paths."""
+    out = tmp_path / "hindcast"
+    arguments = ["--origins", "1", "--paths", "50", "--jobs", "1", "--out", str(out)]
+    result = CliRunner().invoke(cli, ["hindcast", str(SCENARIOS / PLANS[ward]), *arguments])
+    assert result.exit_code == 0, result.output
+    scored = pd.read_csv(out / "hindcast.csv", parse_dates=["date"]).set_index("date")
+    expected = truth[truth["ward"] == ward].set_index("date")["census"]
+    # Source: the generator's truth: the census a hindcast is scored against is the one that
+    # happened, and the ward's beds are the generator's.
+    assert len(scored) > 0
+    np.testing.assert_array_equal(scored["census"], expected.reindex(scored.index))
+    assert (scored["beds_open"] == WARDS[ward].beds).all()
+
+
 @pytest.mark.slow
 @pytest.mark.parametrize("ward", list(PLANS))
 def test_hindcast_bands_hold_70_to_90_percent(tmp_path, ward):
