@@ -40,13 +40,15 @@ def test_help_carries_the_caution():
     assert "professional judgement" in result.output
 
 
+SCENARIOS = Path(__file__).resolve().parents[1] / "scenarios"
+
+
 def over_beds_plan(tmp_path, extra: str = "") -> Path:
-    """The demo ward's records with too few beds for the 22 patients on the ward at the start."""
-    data = Path(__file__).resolve().parents[1] / "scenarios" / "data"
+    """The demo ward (Larch, read from the hospital export) with 15 beds, fewer than the
+    patients on the ward at the start."""
     plan = tmp_path / "small.toml"
     plan.write_text(
-        f'[history]\nepisodes = "{data / "larch_episodes.csv"}"\n'
-        f'admissions = "{data / "larch_admissions.csv"}"\n{extra}[beds]\nbase = 15\n'
+        f'extends = "{SCENARIOS / "baseline.toml"}"\n[history]\n{extra}[beds]\nbase = 15\n'
     )
     return plan
 
@@ -58,7 +60,10 @@ def test_more_patients_than_beds_at_the_start_is_refused(tmp_path):
     assert result.exit_code == 2
     line = result.output.strip()
     assert "\n" not in line
-    assert "22 patients on the ward at 00:00 on 2026-11-30 but 15 beds open" in line
+    truth = (SCENARIOS / "data" / "kestrel_vale_truth.csv").read_text().splitlines()
+    at_start = next(row for row in truth if row.startswith("2026-11-29,Larch,")).split(",")[-1]
+    # Source: the demo generator's truth: Larch's census at 24:00 on the history's last day.
+    assert f"{at_start} patients on the ward at 00:00 on 2026-11-30 but 15 beds open" in line
     assert "does the file hold several wards?" in line and 'history.over_beds = "allow"' in line
     allowed = over_beds_plan(tmp_path, 'over_beds = "allow"\n')
     assert CliRunner().invoke(cli, ["check", str(allowed)]).exit_code == 0

@@ -41,7 +41,7 @@ PROFILE = np.zeros((7, 24))
 PROFILE[:5, 8:] = WEEKDAY_HOURS / WEEKDAY_HOURS.sum()
 PROFILE[5:, 8:] = WEEKEND_HOURS / WEEKEND_HOURS.sum()
 EPISODES = 20_000
-DEMO_EPISODES = Path(__file__).resolve().parents[1] / "scenarios" / "data" / "larch_episodes.csv"
+DEMO_EXPORT = Path(__file__).resolve().parents[1] / "scenarios" / "data" / "kestrel_vale_stays.csv"
 
 
 def simulate(seed: int, n: int, days: int, beta: np.ndarray = BETA):
@@ -339,7 +339,10 @@ def test_fitting_imports_neither_statsmodels_nor_scipy_stats():
     code = (
         "import sys, pandas as pd\n"
         "from planner.simulate.discharge_fit import fit_discharge_timing\n"
-        f"d = pd.read_csv({str(DEMO_EPISODES)!r}, parse_dates=['admitted_at', 'discharged_at'])\n"
+        f"e = pd.read_csv({str(DEMO_EXPORT)!r}, na_values=['NULL']).query('Ward == \"Larch\"')\n"
+        "t = {f: pd.to_datetime(e[c], format='%d/%m/%Y %H:%M') for f, c in "
+        "(('admitted_at', 'Admission Date'), ('discharged_at', 'Discharge Date'))}\n"
+        "d = pd.DataFrame(t)\n"
         "fit = fit_discharge_timing(d, pd.Timestamp('2026-12-01'))\n"
         "print([m for m in ('statsmodels', 'scipy.stats') if m in sys.modules])\n"
     )
