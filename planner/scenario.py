@@ -28,7 +28,7 @@ from planner.forecast.settings import (
 from planner.records.files import HistoryFormat
 from planner.scenario_history import history_format
 from planner.scenario_patients import clock_hours, read_discharge, read_planned, read_stay
-from planner.schema import TOP
+from planner.schema import TABLES, TOP
 from planner.schema_checks import table_values, validate
 from planner.simulate.settings import (
     BedChange,
@@ -173,8 +173,6 @@ def _check_range(where: str, start: date, end: date) -> None:
 
 def _shifts(document: dict[str, Any]) -> tuple[Shift, ...]:
     items = _items(document, "staffing.shift")
-    if not items:
-        return StaffingSettings().shifts
     shifts = tuple(
         Shift(
             item["name"],
@@ -190,6 +188,16 @@ def _shifts(document: dict[str, Any]) -> tuple[Shift, ...]:
 
 def _ward(document: dict[str, Any], where: str) -> WardSettings:
     beds = table_values(document, "beds")
+    if beds["base"] is None:
+        raise PlannerError(
+            f"{where}: beds.base: required: the beds this ward normally has open (no number "
+            f"of beds is assumed); give it under [beds] here or in the file this one extends"
+        )
+    if not _items(document, "staffing.shift"):
+        raise PlannerError(
+            f"{where}: staffing.shift: required: the ward's nurse rota as [[staffing.shift]] "
+            f"tables (name, start, end, patients_per_nurse, roster; no rota is assumed)"
+        )
     changes = []
     for number, item in enumerate(_items(document, "beds.change"), start=1):
         _check_range(f"{where}: beds.change[{number}]", item["start"], item["end"])
@@ -260,6 +268,34 @@ def _level_changes(document: dict[str, Any], where: str) -> tuple[LevelChange, .
         size = item.get("relative_change")
         changes.append(LevelChange(item["date"], None if size is None else float(size)))
     return tuple(changes)
+
+
+def plan_lines(scenario: Scenario) -> list[str]:
+    """The resolved plan, a line per table: each key's value, marked "given" (in the scenario
+    file or one it extends) or "default"; arrays of tables by their number of entries."""
+    document = scenario.resolved
+
+    def shown(key, given: dict) -> str:
+        value = given.get(key.name, key.default)
+        mark = "given" if key.name in given else "default"
+        if isinstance(value, date):
+            text = value.isoformat()
+        elif isinstance(value, list) and len(value) > 4:
+            text = f"[{len(value)} values]"
+        else:
+            text = repr(value)
+        return f"{key.name} = {text} ({mark})"
+
+    lines = ["plan: " + ", ".join(shown(key, document) for key in TOP if key.name != "extends")]
+    for table in TABLES:
+        root, *child = table.name.split(".")
+        given = document.get(root, {})
+        given = given.get(child[0], [] if table.many else {}) if child else given
+        if table.many:
+            lines.append(f"  [[{table.name}]]: {len(given)} given")
+        elif isinstance(given, dict):
+            lines.append(f"  [{table.name}] " + ", ".join(shown(key, given) for key in table.keys))
+    return lines
 
 
 def load_scenario(path: str | Path | None = None) -> Scenario:

@@ -500,7 +500,15 @@ TABLES = (
         "beds",
         "Beds and what happens when none is free.",
         (
-            Key("base", "int", 28, "Beds normally open.", "beds", minimum=1),
+            Key(
+                "base",
+                "int",
+                None,
+                "Beds normally open. Required (in this file or one it extends): no number of "
+                "beds is assumed.",
+                "beds",
+                minimum=1,
+            ),
             Key(
                 "policy",
                 "str",
@@ -538,8 +546,7 @@ TABLES = (
     Table(
         "staffing.shift",
         "Shifts of the daily rota; together they must cover the 24 hours "
-        "once. Default: day 07:00-19:00 at 4 patients per nurse, 5 rostered; night "
-        "19:00-07:00 at 7 patients per nurse, 3 rostered.",
+        "once. Required (in this file or one it extends): no rota is assumed.",
         (
             Key("name", "str", None, "Shift name.", required=True),
             Key("start", "hour", None, "Start time HH:MM.", required=True),

@@ -48,13 +48,15 @@ def shifts(end="19:00", ratio=4, roster="[5, 5, 5, 5, 5, 5, 5]") -> str:
 
 
 def plan(top: str = "", history: str = 'admissions = "ward.csv"', tables: str = "") -> str:
-    """A small, fast scenario: 2 weeks, recursive AR up to lag 7, stays from a mean."""
+    """A small, fast scenario: 2 weeks, recursive AR up to lag 7, stays from a mean, 24 beds
+    and a day and night rota (unless ``tables`` gives shifts)."""
+    rota = "" if "staffing.shift" in tables else shifts()
     return (
         f"name = 'Test ward'\nhorizon_weeks = 2\npaths = 20\nseed = 5\n{top}\n"
         f"[history]\n{history}\n"
         "[forecast]\nstrategy = 'recursive'\nmax_lag = 7\nannual = false\n"
         "[stay]\nmodel = 'lognormal'\nmean = 4.0\nsd = 3.0\n"
-        f"[beds]\nbase = 24\n{tables}"
+        f"[beds]\nbase = 24\n{tables}{rota}"
     )
 
 
@@ -281,7 +283,7 @@ def test_episodes_ending_before_the_daily_history_are_refused(tmp_path):
     )
     (tmp_path / "plan.toml").write_text(
         '[history]\nadmissions = "daily.csv"\nepisodes = "episodes.csv"\n'
-        "[forecast]\nstrategy = 'recursive'\nmax_lag = 7\n"
+        "[forecast]\nstrategy = 'recursive'\nmax_lag = 7\n[beds]\nbase = 20\n" + shifts()
     )
     result = CliRunner().invoke(cli, ["check", str(tmp_path / "plan.toml")])
     assert result.exit_code == 2

@@ -5,6 +5,7 @@ from __future__ import annotations
 from pathlib import Path
 
 from click.testing import CliRunner
+from wards import ROTA
 
 from planner.cli import cli
 
@@ -27,7 +28,8 @@ def test_check_missing_file_is_one_line_exit_2(tmp_path):
 def test_check_bad_history_file(tmp_path):
     (tmp_path / "ward.csv").write_text("date,admissions\n2026-01-01,3\n2026-01-01,2\n")
     (tmp_path / "plan.toml").write_text(
-        '[history]\nadmissions = "ward.csv"\n[stay]\nmean = 4.0\nsd = 3.0\n'
+        '[history]\nadmissions = "ward.csv"\n[stay]\nmean = 4.0\nsd = 3.0\n[beds]\nbase = 20\n'
+        + ROTA
     )
     result = CliRunner().invoke(cli, ["check", str(tmp_path / "plan.toml")])
     assert result.exit_code == 2
@@ -67,3 +69,14 @@ def test_more_patients_than_beds_at_the_start_is_refused(tmp_path):
     assert "does the file hold several wards?" in line and 'history.over_beds = "allow"' in line
     allowed = over_beds_plan(tmp_path, 'over_beds = "allow"\n')
     assert CliRunner().invoke(cli, ["check", str(allowed)]).exit_code == 0
+
+
+def test_check_marks_each_value_given_or_default():
+    result = CliRunner().invoke(cli, ["check"])
+    assert result.exit_code == 0, result.output
+    lines = result.output.splitlines()
+    beds = next(line for line in lines if line.strip().startswith("[beds]"))
+    assert "base = 28 (given)" in beds
+    discharge = next(line for line in lines if line.strip().startswith("[discharge]"))
+    assert "timing = 'auto' (default)" in discharge
+    assert "[[staffing.shift]]: 2 given" in result.output

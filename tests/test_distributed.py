@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
+from wards import ROTA
 
 from planner.errors import PlannerError
 from planner.simulate.distributed import map_chunks
@@ -63,7 +64,7 @@ def test_run_and_compare_on_the_cluster_equal_local_runs(scheduler, tmp_path):
             f'name = "beds {beds}"\nhorizon_weeks = 2\npaths = 60\nseed = 5\n'
             '[history]\nadmissions = "admissions.csv"\n'
             "[forecast]\nstrategy = 'recursive'\nmax_lag = 7\nannual = false\n"
-            f"[stay]\nmodel = 'lognormal'\nmean = 2.0\nsd = 1.5\n[beds]\nbase = {beds}\n"
+            f"[stay]\nmodel = 'lognormal'\nmean = 2.0\nsd = 1.5\n[beds]\nbase = {beds}\n" + ROTA
         )
     plans = [str(tmp_path / "beds8.toml"), str(tmp_path / "beds10.toml")]
     files = {"run": "weekly.csv", "compare": "comparison.csv"}

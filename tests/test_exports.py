@@ -9,6 +9,7 @@ import export_data as data
 import pandas as pd
 import pytest
 from click.testing import CliRunner
+from wards import ROTA
 
 from planner.cli import cli
 from planner.errors import PlannerError
@@ -178,6 +179,7 @@ def export_plan(tmp_path, extra: str = "", episodes: str = "hospital.csv") -> st
         "name = 'Larch from the hospital export'\nhorizon_weeks = 2\npaths = 20\nseed = 5\n"
         f'[history]\nepisodes = "{episodes}"\n{extra}{data.MAPPING}'
         "[forecast]\nstrategy = 'recursive'\nmax_lag = 7\nannual = false\n[beds]\nbase = 28\n"
+        + ROTA
     )
     return str(plan)
 

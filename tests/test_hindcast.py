@@ -9,6 +9,7 @@ import numpy as np
 import pandas as pd
 import pytest
 from scipy import stats
+from wards import ROTA
 
 from planner.errors import PlannerError
 from planner.records.census import census_series
@@ -44,7 +45,7 @@ def _synthetic_ward(folder, days=3 * 365, level=4.0, beds=60, horizon_weeks=2, s
         f'name = "synthetic"\nhorizon_weeks = {horizon_weeks}\nseed = 7\n'
         '[history]\nepisodes = "episodes.csv"\n'
         '[forecast]\nstrategy = "recursive"\nmax_lag = 14\nannual = false\n'
-        f'[stay]\nmodel = "empirical"\n[beds]\nbase = {beds}\npolicy = "wait"\n'
+        f'[stay]\nmodel = "empirical"\n[beds]\nbase = {beds}\npolicy = "wait"\n' + ROTA
     )
     return load_scenario(folder / "ward.toml")
 

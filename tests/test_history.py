@@ -11,6 +11,7 @@ import pandas as pd
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from wards import ROTA
 
 from planner.errors import PlannerError
 from planner.forecast.requirements import check_history_length, days_needed
@@ -265,7 +266,7 @@ def long_ward(folder, years: int, episodes: int) -> None:
         }
     ).to_csv(folder / "episodes.csv", index=False)
     (folder / "plan.toml").write_text(  # beds enough for the invented records' census
-        '[history]\nadmissions = "ward.csv"\nepisodes = "episodes.csv"\n[beds]\nbase = 500\n'
+        '[history]\nadmissions = "ward.csv"\nepisodes = "episodes.csv"\n[beds]\nbase = 500\n' + ROTA
     )
 
 

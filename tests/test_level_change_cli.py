@@ -5,6 +5,7 @@ from __future__ import annotations
 import pandas as pd
 from click.testing import CliRunner
 from level_change_data import stepped_admissions
+from wards import ROTA
 
 from planner.cli import cli
 from planner.report.run_report import NO_DRIFT
@@ -19,7 +20,8 @@ def write_plan(folder, changes: str = "") -> tuple:
     plan.write_text(
         "horizon_weeks = 4\npaths = 40\n[forecast]\nbacktest_origins = 13\nbacktest_paths = 20\n"
         f"{changes}"
-        '[history]\nadmissions = "ward.csv"\n[stay]\nmean = 5.0\nsd = 4.0\n'
+        '[history]\nadmissions = "ward.csv"\n[stay]\nmean = 5.0\nsd = 4.0\n[beds]\nbase = 28\n'
+        + ROTA
     )
     return plan, history, change
 

@@ -10,6 +10,7 @@ import numpy as np
 import pandas as pd
 import pytest
 from click.testing import CliRunner
+from wards import ROTA
 
 from planner.cli import cli
 from planner.runs.run import run_scenario
@@ -40,7 +41,7 @@ def plan(folder, name, beds, policy="divert", paths=200, extra=""):
         "[forecast]\nstrategy = 'recursive'\nmax_lag = 7\nweekday = false\nannual = false\n"
         "backtest_origins = 4\n"
         f"[stay]\nmodel = 'lognormal'\nmean = {STAY}\nsd = 1.5\n"
-        f"[beds]\nbase = {beds}\npolicy = '{policy}'\n"
+        f"[beds]\nbase = {beds}\npolicy = '{policy}'\n{ROTA}"
         "[costs]\nbed_day = 100.0\ndiverted_patient = 500.0\n"
     )
     return path

@@ -8,6 +8,7 @@ from datetime import date
 from pathlib import Path
 
 import pytest
+from wards import ROTA
 
 from planner.errors import PlannerError
 from planner.forecast.settings import ForecastSettings
@@ -23,7 +24,9 @@ def scenario(tmp_path, text, name="plan.toml"):
     (tmp_path / "ward.csv").write_text("date,admissions\n2026-01-01,3\n")
     path = tmp_path / name
     stay = "" if "[stay]" in text else "[stay]\nmean = 5.0\nsd = 4.0\n"
-    path.write_text(text + '\n[history]\nadmissions = "ward.csv"\n' + stay)
+    beds = "" if "[beds]" in text else "[beds]\nbase = 28\n"
+    rota = "" if "staffing.shift" in text else ROTA
+    path.write_text(text + '\n[history]\nadmissions = "ward.csv"\n' + stay + beds + rota)
     return path
 
 
@@ -51,18 +54,29 @@ def test_defaults(tmp_path):
 def test_settings_defaults_are_the_scenario_defaults(tmp_path):
     plan = load_scenario(scenario(tmp_path, ""))
     assert plan.forecast == ForecastSettings()
-    assert plan.ward == WardSettings()
+    assert replace(plan.ward, staffing=StaffingSettings()) == WardSettings(beds=28)
     assert replace(plan.stay, mean=None, sd=None) == StaySettings()
 
 
-def test_default_rota_is_the_one_the_key_table_describes():
+@pytest.mark.parametrize(
+    ("text", "message"),
+    [
+        ("[beds]\npolicy = 'divert'\n", "beds.base: required: the beds this ward normally has"),
+        ("[beds]\nbase = 20\n[staffing]\nminimum_nurses = 2\n# no shifts\n",
+         "staffing.shift: required: the ward's nurse rota"),
+    ],
+)  # fmt: skip
+def test_beds_and_rota_are_never_assumed(tmp_path, text, message):
+    path = tmp_path / "plan.toml"
+    (tmp_path / "ward.csv").write_text("date,admissions\n2026-01-01,3\n")
+    rota = ROTA if "beds.base" in message else ""
+    path.write_text(
+        text + '[history]\nadmissions = "ward.csv"\n[stay]\nmean = 5.0\nsd = 4.0\n' + rota
+    )
+    with pytest.raises(PlannerError, match=message):
+        load_scenario(path)
     text = next(table.doc for table in TABLES if table.name == "staffing.shift")
-    for shift in StaffingSettings().shifts:
-        assert len(set(shift.roster)) == 1
-        assert (
-            f"{shift.name} {shift.start_hour:02.0f}:00-{shift.end_hour:02.0f}:00 at "
-            f"{shift.patients_per_nurse:g} patients per nurse, {shift.roster[0]} rostered"
-        ) in text
+    assert "no rota is assumed" in text
 
 
 def test_backtest_paths_and_refit_series_are_read(tmp_path):
@@ -249,7 +263,7 @@ def test_history_format_keys_are_read(tmp_path):
     path.write_text(
         '[history]\nadmissions = "ward.csv"\ndate_format = "%d.%m.%Y"\n'
         'timestamp_format = "%d/%m/%Y %H:%M"\nfill_missing_days = true\n'
-        "[stay]\nmean = 4.0\nsd = 3.0\n"
+        "[stay]\nmean = 4.0\nsd = 3.0\n[beds]\nbase = 28\n" + ROTA
     )
     form = load_scenario(path).history_format
     assert (form.date_format, form.timestamp_format, form.fill_missing_days) == (

@@ -569,7 +569,7 @@ def test_summaries_across_paths(simulate):
 @pytest.mark.parametrize(
     ("change", "message"),
     [
-        ({"settings": WardSettings(policy="queue")}, "policy"),
+        ({"settings": WardSettings(beds=28, policy="queue")}, "policy"),
         (
             {"settings": WardSettings(beds=2, bed_changes=(BedChange(START, START, -3),))},
             "negative",
@@ -582,7 +582,7 @@ def test_summaries_across_paths(simulate):
 def test_bad_inputs_raise(simulate, change, message):
     model = {
         "start": START,
-        "settings": WardSettings(),
+        "settings": WardSettings(beds=28),
         "stays": Exponential.from_mean(3.0),
         "inpatients_elapsed": NONE_IN,
         "hour_profile": UNIFORM,

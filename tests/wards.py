@@ -33,3 +33,11 @@ class FixedStay:
 
     def remaining_from_uniforms(self, u, elapsed):
         return np.maximum(self.mean - np.asarray(elapsed, dtype=float), 1.0 / (24 * 60))
+
+
+#: A day and night rota for test scenario files (a scenario must give its rota).
+ROTA = (
+    "[[staffing.shift]]\nname = 'day'\nstart = '07:00'\nend = '19:00'\npatients_per_nurse = 4\n"
+    "roster = [5, 5, 5, 5, 5, 5, 5]\n[[staffing.shift]]\nname = 'night'\nstart = '19:00'\n"
+    "end = '07:00'\npatients_per_nurse = 7\nroster = [3, 3, 3, 3, 3, 3, 3]\n"
+)

@@ -23,7 +23,7 @@ from planner.records.frames import HistoryFrames
 from planner.records.ward_history import WardHistory
 from planner.results import RunResult, RunSummary
 from planner.runs.ward_model import discharge_timing, planned_list, ward_model
-from planner.scenario import Scenario, load_scenario
+from planner.scenario import Scenario, load_scenario, plan_lines
 from planner.simulate.discharge_fit import describe_discharges
 from planner.simulate.model import RunOptions, WardModel, beds_open_by_day
 from planner.summaries.daily import summarise_daily, summarise_shifts
@@ -154,7 +154,7 @@ def check_scenario(path: Path | None) -> list[str]:
         )
     else:
         lines.append(f"discharges: {describe_discharges(*discharge_timing(scenario, history))}")
-    return lines
+    return lines + plan_lines(scenario)
 
 
 @dataclass(frozen=True)

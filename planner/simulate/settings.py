@@ -53,9 +53,8 @@ class RosterOverride:
 
 @dataclass(frozen=True)
 class StaffingSettings:
-    # The default rota is a structure the key table cannot hold: it is written here, and a
-    # scenario without [[staffing.shift]] gets it from here (planner.scenario); the table's
-    # text for [[staffing.shift]] describes it.
+    # A rota for wards built in code (tests, the Python interface's own models); a scenario
+    # file must give its own [[staffing.shift]] tables (planner.scenario refuses one without).
     shifts: tuple[Shift, ...] = (
         Shift("day", 7.0, 19.0, 4.0, (5, 5, 5, 5, 5, 5, 5)),
         Shift("night", 19.0, 7.0, 7.0, (3, 3, 3, 3, 3, 3, 3)),
@@ -124,7 +123,7 @@ class WardSettings:
     first come first served, for the next one) or "divert" (placed elsewhere and lost to this
     ward)."""
 
-    beds: int = default("beds.base")
+    beds: int
     bed_changes: tuple[BedChange, ...] = ()
     policy: str = default("beds.policy")
     staffing: StaffingSettings = field(default_factory=StaffingSettings)
