@@ -27,20 +27,16 @@ from planner.forecast.settings import (
 )
 from planner.records.files import HistoryFormat
 from planner.scenario_history import history_format
-from planner.scenario_patients import clock_hours, read_discharge, read_planned, read_stay
+from planner.scenario_patients import read_discharge, read_planned, read_stay
+from planner.scenario_ward import check_range, read_ward, table_items
 from planner.schema import TABLES, TOP
 from planner.schema_checks import table_values, validate
 from planner.simulate.settings import (
-    BedChange,
     DischargeSettings,
     PlannedSettings,
-    RosterOverride,
-    Shift,
-    StaffingSettings,
     StaySettings,
     WardSettings,
 )
-from planner.simulate.staffing import validate_staffing
 from planner.summaries.comparison import Costs
 from planner.summaries.sizing import SizingTarget, sizing_target
 
@@ -161,68 +157,6 @@ def read_document(path: Path, _seen: tuple[Path, ...] = ()) -> dict[str, Any]:
     return _merge(read_document(Path(parent), (*_seen, path)), document)
 
 
-def _items(document: dict[str, Any], name: str) -> list[dict[str, Any]]:
-    root, child = name.split(".")
-    return list(document.get(root, {}).get(child, []))
-
-
-def _check_range(where: str, start: date, end: date) -> None:
-    if end < start:
-        raise PlannerError(f"{where}: end {end} is before start {start}")
-
-
-def _shifts(document: dict[str, Any]) -> tuple[Shift, ...]:
-    items = _items(document, "staffing.shift")
-    shifts = tuple(
-        Shift(
-            item["name"],
-            clock_hours(item["start"]),
-            clock_hours(item["end"]),
-            float(item["patients_per_nurse"]),
-            tuple(item["roster"]),
-        )
-        for item in items
-    )
-    return shifts
-
-
-def _ward(document: dict[str, Any], where: str) -> WardSettings:
-    beds = table_values(document, "beds")
-    if beds["base"] is None:
-        raise PlannerError(
-            f"{where}: beds.base: required: the beds this ward normally has open (no number "
-            f"of beds is assumed); give it under [beds] here or in the file this one extends"
-        )
-    if not _items(document, "staffing.shift"):
-        raise PlannerError(
-            f"{where}: staffing.shift: required: the ward's nurse rota as [[staffing.shift]] "
-            f"tables (name, start, end, patients_per_nurse, roster; no rota is assumed)"
-        )
-    changes = []
-    for number, item in enumerate(_items(document, "beds.change"), start=1):
-        _check_range(f"{where}: beds.change[{number}]", item["start"], item["end"])
-        changes.append(BedChange(item["start"], item["end"], item["change"]))
-    shifts = _shifts(document)
-    names = {shift.name for shift in shifts}
-    overrides = []
-    for number, item in enumerate(_items(document, "staffing.override"), start=1):
-        at = f"{where}: staffing.override[{number}]"
-        _check_range(at, item["start"], item["end"])
-        if item["shift"] not in names:
-            raise PlannerError(
-                f"{at}.shift: no shift named {item['shift']!r} (shifts: {', '.join(sorted(names))})"
-            )
-        overrides.append(RosterOverride(item["start"], item["end"], item["shift"], item["nurses"]))
-    staffing = StaffingSettings(
-        shifts, table_values(document, "staffing")["minimum_nurses"], tuple(overrides)
-    )
-    try:
-        validate_staffing(staffing)
-    except PlannerError as error:
-        raise PlannerError(f"{where}: {error}") from None
-    return WardSettings(beds["base"], tuple(changes), beds["policy"], staffing)
-
-
 #: Forecast settings named otherwise than their key in the scenario's [forecast] table.
 _FORECAST_FIELDS = {"holidays": "holiday_dates", "backtest_every_days": "backtest_every"}
 
@@ -230,8 +164,8 @@ _FORECAST_FIELDS = {"holidays": "holiday_dates", "backtest_every_days": "backtes
 def _forecast(document: dict[str, Any], where: str) -> ForecastSettings:
     values = table_values(document, "forecast")
     surges = []
-    for number, item in enumerate(_items(document, "demand.surge"), start=1):
-        _check_range(f"{where}: demand.surge[{number}]", item["start"], item["end"])
+    for number, item in enumerate(table_items(document, "demand.surge"), start=1):
+        check_range(f"{where}: demand.surge[{number}]", item["start"], item["end"])
         surges.append(Surge(item["start"], item["end"], float(item["factor"])))
     demand = DemandAdjustment(float(table_values(document, "demand")["growth"]), tuple(surges))
     fields = {_FORECAST_FIELDS.get(key, key): value for key, value in values.items()}
@@ -258,7 +192,7 @@ def _level_changes(document: dict[str, Any], where: str) -> tuple[LevelChange, .
     Their dates are checked against the history when it is read
     (:func:`planner.forecast.level_change.check_level_changes`)."""
     changes, seen = [], {}
-    for number, item in enumerate(_items(document, "forecast.level_change"), start=1):
+    for number, item in enumerate(table_items(document, "forecast.level_change"), start=1):
         if item["date"] in seen:
             raise PlannerError(
                 f"{where}: forecast.level_change[{number}].date: {item['date']} is also the "
@@ -329,7 +263,7 @@ def scenario_from_document(document: dict[str, Any], path: Path) -> Scenario:
         seed=top["seed"],
         forecast=_forecast(document, where),
         stay=stay,
-        ward=_ward(document, where),
+        ward=read_ward(document, where),
         engine=table_values(document, "simulation")["engine"],
         costs=Costs(**{k: float(v) for k, v in table_values(document, "costs").items()}),
         resolved=document,
