@@ -623,15 +623,18 @@ TABLES = (
                 "no_bed_week",
                 "Risk measure for beds: the chance that at least one patient finds no free "
                 "bed in a week, the share of a week's patients who find no free bed, or the "
-                "expected hours waited for a bed by a week's patients (policy wait only).",
-                choices=("no_bed_week", "no_bed_share", "wait_hours"),
+                "expected hours waited for a bed by a week's patients (policy wait only), or "
+                "the chance that at least one planned patient is cancelled in a week (a "
+                "[planned] stream with when_full = cancel only).",
+                choices=("no_bed_week", "no_bed_share", "wait_hours", "cancelled_week"),
             ),
             Key(
                 "target",
                 "float",
                 None,
                 "Largest acceptable value of the measure in every week: a chance or share "
-                "(0.05 = 5%, below 1) for no_bed_week and no_bed_share, hours for wait_hours "
+                "(0.05 = 5%, below 1) for no_bed_week, no_bed_share and cancelled_week, hours "
+                "for wait_hours "
                 "(default: 0.05, or 24 hours for wait_hours).",
                 above=0.0,
             ),

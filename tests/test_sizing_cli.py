@@ -118,3 +118,25 @@ def test_compare_does_not_size_its_plans(tmp_path):
     path = plan(tmp_path, '[sizing]\nmeasure = "no_bed_share"\n')
     assert load_scenario(path).sizing is not None
     assert _plan(path).sizing is None
+
+
+def test_cancellations_as_the_measure_need_a_planned_stream_that_cancels(tmp_path):
+    out = tmp_path / "out"
+    result = CliRunner().invoke(cli, ["size", str(plan(tmp_path, "")), "--measure",
+                                      "cancelled_week", "--out", str(out)])  # fmt: skip
+    assert result.exit_code == 2, result.output
+    assert "sizing.measure: cancelled_week needs a [planned] stream" in result.output
+    assert len(result.output.strip().splitlines()) == 1 and not out.exists()
+
+
+def test_surgical_ward_sized_for_cancellations(tmp_path):
+    path = tmp_path / "alder.toml"
+    path.write_text(f'extends = "{DEMO / "surgical_ward.toml"}"\nhorizon_weeks = 4\n'
+                    '[forecast]\nstrategy = "recursive"\n')  # fmt: skip
+    out = tmp_path / "out"
+    arguments = ["--measure", "cancelled_week", "--paths", "200", "--jobs", "1", "--out", str(out)]
+    result = CliRunner().invoke(cli, ["size", str(path), *arguments])
+    assert result.exit_code == 0, result.output
+    assert "the weekly chance of a planned patient being cancelled at or under 5%" in result.output
+    table = pd.read_csv(out / "sizing.csv")
+    assert set(table["measure"]) == {"cancelled_week"}

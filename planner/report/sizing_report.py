@@ -16,6 +16,7 @@ AXIS = {
     "no_bed_week": "chance of a patient finding no free bed in a week",
     "no_bed_share": "share of patients finding no free bed",
     "wait_hours": "expected hours waited for a bed per week",
+    "cancelled_week": "chance of a planned patient being cancelled in a week",
 }
 
 METHOD = (
@@ -71,6 +72,7 @@ def sentence(result: SizingResult) -> str:
         "no_bed_week": "the weekly chance of a patient finding no free bed",
         "no_bed_share": "the share of patients finding no free bed",
         "wait_hours": "the expected hours waited for a bed",
+        "cancelled_week": "the weekly chance of a planned patient being cancelled",
     }[target.measure]
     erlang = "an Erlang loss rule" if target.is_share else (
         f"an Erlang loss rule at {target.erlang_share:.0%} of patients")  # fmt: skip

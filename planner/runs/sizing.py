@@ -144,7 +144,14 @@ def _chart_counts(tried, answer: int, others: list[int], floor: int) -> list[int
 
 
 def check_measure(scenario: Scenario, target: SizingTarget) -> None:
-    """Refuse hours waited as the measure of a ward whose patients never wait."""
+    """Refuse hours waited as the measure of a ward whose patients never wait, and
+    cancellations as the measure of a ward that cancels nobody."""
+    planned = scenario.planned
+    if target.measure == "cancelled_week" and not (planned.given and planned.when_full == "cancel"):
+        raise PlannerError(
+            f"{scenario.source}: sizing.measure: cancelled_week needs a [planned] stream with "
+            f'when_full = "cancel"; choose no_bed_week, no_bed_share or wait_hours'
+        )
     if target.measure == "wait_hours" and scenario.ward.policy != "wait":
         raise PlannerError(
             f'{scenario.source}: sizing.measure: wait_hours needs beds.policy = "wait" '

@@ -10,7 +10,9 @@ Measures (``[sizing] measure``), each per forecast week and per path, then acros
   sum of patients turned away / sum of patients admitted, with the error of a ratio of means
   across the independent paths (:func:`planner.summaries.monte_carlo.ratio_se`);
 * ``wait_hours``: the expected hours waited for a bed by the week's patients (policy "wait");
-  a mean over paths, error sd / sqrt(n).
+  a mean over paths, error sd / sqrt(n);
+* ``cancelled_week``: the chance that at least one planned patient is cancelled for want of a
+  bed in the week (a planned stream with ``when_full = "cancel"``); a share of paths.
 
 A bed count meets the target in a week when the estimate is at or under it; the beds a week
 needs are the fewest that meet it; the ward needs the most that any week needs.
@@ -34,7 +36,8 @@ from planner.summaries.weekly import weekly_paths
 
 MEASURES = choices("sizing.measure")
 #: The target when the scenario and the command line give none.
-DEFAULT_TARGETS = {"no_bed_week": 0.05, "no_bed_share": 0.05, "wait_hours": 24.0}
+DEFAULT_TARGETS = {"no_bed_week": 0.05, "no_bed_share": 0.05, "wait_hours": 24.0,
+                   "cancelled_week": 0.05}  # fmt: skip
 #: Share of patients the Erlang loss size aims at when the measure is in hours.
 ERLANG_DEFAULT_SHARE = 0.05
 
@@ -72,6 +75,7 @@ class SizingTarget:
             "no_bed_week": "the weekly chance of a patient finding no free bed",
             "no_bed_share": "the share of patients finding no free bed",
             "wait_hours": "the expected hours waited for a bed in a week",
+            "cancelled_week": "the weekly chance of a planned patient being cancelled",
         }[self.measure]
         return f"{what} at or under {self.target_text()}"
 
@@ -123,7 +127,9 @@ def weekly_risk(
 ) -> tuple[np.ndarray, np.ndarray]:
     """The ``measure`` in each forecast week from ``start`` and its Monte Carlo standard
     error, (weeks,) arrays each."""
-    weekly = weekly_paths(ward, start)
+    weekly = weekly_paths(ward, start, planned=measure == "cancelled_week")
+    if measure == "cancelled_week":
+        return share_se(weekly.cancelled > 0)
     if measure == "no_bed_week":
         return share_se(weekly.bed_shortfall)
     if measure == "no_bed_share":
