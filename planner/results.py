@@ -27,14 +27,17 @@ HINDCAST_SIDECAR = "hindcast.json"
 @dataclass(frozen=True)
 class RunSummary:
     """The tables of a run across paths: ``weekly`` (weekly.csv), ``daily`` (daily.csv),
-    ``shifts`` (shifts.csv), the headline :class:`Outlook`, and the recorded midnight census
-    of the weeks before the forecast (None without episodes)."""
+    ``shifts`` (shifts.csv), the headline :class:`Outlook`, the recorded midnight census
+    of the weeks before the forecast (None without episodes) and ``shift_weekdays``
+    (shift_weekdays.csv: the chance of a short shift and of a full ward by shift and
+    weekday)."""
 
     weekly: pd.DataFrame
     daily: pd.DataFrame
     shifts: pd.DataFrame
     outlook: Outlook
     recent_census: pd.Series | None
+    shift_weekdays: pd.DataFrame | None = None
 
 
 @dataclass(frozen=True)

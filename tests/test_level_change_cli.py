@@ -7,7 +7,7 @@ from click.testing import CliRunner
 from level_change_data import stepped_admissions
 
 from planner.cli import cli
-from planner.report.run_report import NO_DRIFT
+from planner.report.assumptions import NO_DRIFT
 
 SEED = 100  # a series whose declared step leaves the in-sample CUSUM quiet (as in 17 of 20)
 
