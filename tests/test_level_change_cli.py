@@ -64,7 +64,7 @@ def test_a_later_change_without_a_size_is_refused(tmp_path):
     result = CliRunner().invoke(cli, ["check", str(plan)])
     assert result.exit_code == 2
     assert result.output.strip() == (
-        f"Error: {plan}: forecast.level_change[1].relative_change: required for a change after "
+        f"{plan}: forecast.level_change[1].relative_change: required for a change after "
         f"the history ends ({history.index[-1].date()}); give the expected change, e.g. 0.1 "
         f"for +10%"
     )
