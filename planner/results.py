@@ -85,14 +85,17 @@ class RunResult:
 
 @dataclass(frozen=True)
 class Comparison:
-    """Plans run with common random numbers: the runs (the first is the reference), the
+    """Plans compared with the first: the runs (the first is the reference), the
     comparison.csv table, the costs.csv table (None when no plan gives costs) and the glance
-    table (one row per plan over the horizon)."""
+    table (one row per plan over the horizon). ``paired``: the plans share their history and
+    forecast and were run with common random numbers (differences path by path); otherwise
+    they were compared as independent runs, each with its own seed."""
 
     runs: tuple[RunResult, ...]
     table: pd.DataFrame
     costs: pd.DataFrame | None
     glance: pd.DataFrame
+    paired: bool = True
 
 
 @dataclass(frozen=True)

@@ -75,12 +75,18 @@ def percent_axis(axes: plt.Axes) -> None:
     axes.yaxis.set_major_formatter(mticker.PercentFormatter(1.0, decimals=0))
 
 
-def week_ticks(axes: plt.Axes, week_start, positions) -> None:
-    """Week axis ticks: the week's number and its first day ("3\n14 Dec")."""
+#: Colours of the plans of a comparison, in turn: blues and greys only.
+PLAN_COLOURS = (LINE, GREY, "#6f9fd8", "#a0a0a0", "#0b1f3a", "#2b2b2b")
+PLAN_MARKERS = ("o", "s", "^", "D", "v", "x")
+
+
+def week_ticks(axes: plt.Axes, week_start, positions, most: int = 14) -> None:
+    """Week axis ticks: the week's number and its first day ("3\n14 Dec"), at most ``most``
+    of them."""
     labels = [
         f"{number}\n{pd.Timestamp(start):%d %b}" for number, start in enumerate(week_start, start=1)
     ]
-    step = max(1, len(labels) // 14)
+    step = -(-len(labels) // most)
     axes.set_xticks(positions[::step], labels[::step])
 
 
@@ -266,13 +272,14 @@ def comparison_chart(comparison: pd.DataFrame) -> bytes:
                 weeks,
                 rows[column],
                 yerr=1.96 * rows[f"{column}_se"],
-                marker="o",
+                color=PLAN_COLOURS[number % len(PLAN_COLOURS)],
+                marker=PLAN_MARKERS[number % len(PLAN_MARKERS)],
                 markersize=3,
                 capsize=2,
                 label=name,
             )
         first = comparison[comparison["scenario"] == comparison["scenario"].iloc[0]]
-        week_ticks(axes, first["week_start"], np.arange(1, len(first) + 1))
+        week_ticks(axes, first["week_start"], np.arange(1, len(first) + 1), most=7)
         axes.set_ylim(0, 1)
         percent_axis(axes)
         axes.set_xlabel("forecast week: number and first day")
