@@ -8,6 +8,7 @@ import shutil
 from pathlib import Path
 
 import numpy as np
+import openpyxl
 import pandas as pd
 import pytest
 from click.testing import CliRunner
@@ -78,6 +79,11 @@ def test_short_shifts_avoided_with_their_cost(tmp_path):
         changed["diff_expected_short_shifts_se"]
         < changed["diff_expected_short_shifts_se_independent"]
     ).all()
+    book = openpyxl.load_workbook(out / "comparison.xlsx")
+    assert book.sheetnames == ["about", "comparison", "costs"]
+    units = dict(zip([c.value for c in book["costs"][1]], [c.value for c in book["costs"][2]],
+                     strict=True))  # fmt: skip
+    assert "currency" in units["short_shifts_cost"] and "shifts" in units["short_shifts_avoided"]
     page = (out / "comparison.html").read_text()
     assert "short shifts avoided against the first" in page and "1 paired SE" in page
     assert "± +" not in page and "± -" not in page

@@ -6,6 +6,7 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 import pytest
 from click.testing import CliRunner
@@ -89,3 +90,31 @@ def test_sizing_answer_on_the_first_screen(tmp_path):
     first_table = page.index("<table")
     assert page.index("this ward needs") < first_table
     assert "sets no [sizing] target" not in page
+
+
+def test_the_workbook_holds_the_csv_tables_with_units(report):
+    import openpyxl
+
+    book = openpyxl.load_workbook(report / "run.xlsx")
+    assert book.sheetnames == ["about", "weekly", "daily", "shifts", "shift_weekdays"]
+    assert "professional judgement" in book["about"]["B1"].value
+    for name in book.sheetnames[1:]:
+        csv = pd.read_csv(report / f"{name}.csv")
+        sheet = book[name]
+        header = [cell.value for cell in sheet[1]]
+        units = [cell.value for cell in sheet[2]]
+        assert header == list(csv.columns)
+        assert all(units), (name, dict(zip(header, units, strict=True)))
+        assert sheet.max_row == len(csv) + 2
+        # The numbers are the CSV's (written to 6 significant digits there).
+        numbers = [c for c in csv.columns if pd.api.types.is_numeric_dtype(csv[c])]
+        for column in numbers:
+            index = header.index(column) + 1
+            values = [row[0].value for row in sheet.iter_rows(min_row=3, min_col=index,
+                                                             max_col=index)]  # fmt: skip
+            np.testing.assert_allclose(values, csv[column], rtol=1e-5, atol=1e-12)
+    weekly_units = dict(zip([c.value for c in book["weekly"][1]],
+                            [c.value for c in book["weekly"][2]], strict=True))  # fmt: skip
+    assert "hours" in weekly_units["expected_wait_hours"]
+    assert "in the week" in weekly_units["expected_wait_hours"]
+    assert "standard error" in weekly_units["p_bed_shortfall_se"]

@@ -8,6 +8,7 @@ import pandas as pd
 
 from planner.report import charts, html
 from planner.report.files import run_record, write_csv, write_json
+from planner.report.workbook import write_workbook
 from planner.results import Comparison
 
 
@@ -17,6 +18,10 @@ def write_compare_files(comparison: Comparison, folder: Path) -> None:
     write_csv(comparison.table, folder / "comparison.csv")
     if comparison.costs is not None:
         write_csv(comparison.costs, folder / "costs.csv", float_format="%.2f")
+    sheets = {"comparison": (comparison.table, "in the week", "comparison.csv: per plan and week")}
+    if comparison.costs is not None:
+        sheets["costs"] = (comparison.costs, "total over the horizon", "costs.csv: per plan")
+    write_workbook(sheets, folder / "comparison.xlsx")
     picture = charts.comparison_chart(comparison.table)
     (folder / "comparison.png").write_bytes(picture)
     (folder / "comparison.html").write_text(compare_page(comparison, picture))

@@ -9,6 +9,7 @@ import pandas as pd
 from planner.report import charts, first_screen, html, sizing_report
 from planner.report.assumptions import assumptions
 from planner.report.files import run_record, write_csv, write_json
+from planner.report.workbook import write_workbook
 from planner.results import HindcastQuote, RunResult
 
 WEEKLY_NOTE = (
@@ -140,6 +141,7 @@ def write_run_files(run: RunResult, folder: Path, hindcast: HindcastQuote | None
         pictures["sizing.png"] = sizing_report.sizing_picture(run.sizing)
     for name, png in pictures.items():
         (folder / name).write_bytes(png)
+    write_workbook(workbook_sheets(run), folder / "run.xlsx")
     (folder / "report.html").write_text(run_page(run, pictures, hindcast))
     inputs = [p for p in (run.scenario.admissions_file, run.scenario.episodes_file) if p]
     summary = run.forecast.summary
@@ -157,6 +159,23 @@ def write_run_files(run: RunResult, folder: Path, hindcast: HindcastQuote | None
         "run", run.scenario.source, run.scenario.resolved, inputs, run.seed, run.paths, extra
     )
     write_json(record, folder / "run.json")
+
+
+def workbook_sheets(run: RunResult) -> dict[str, tuple[pd.DataFrame, str, str]]:
+    """The sheets of run.xlsx: the CSV tables of the run."""
+    summary = run.summary
+    sheets = {
+        "weekly": (summary.weekly, "in the week", "weekly.csv: one row per forecast week"),
+        "daily": (summary.daily, "on the day", "daily.csv: one row per forecast day"),
+        "shifts": (summary.shifts, "per shift", "shifts.csv: one row per day and shift"),
+    }
+    if summary.shift_weekdays is not None:
+        holds = "shift_weekdays.csv: one row per shift and weekday"
+        sheets["shift_weekdays"] = (summary.shift_weekdays, "per shift", holds)
+    if run.sizing is not None:
+        sheets["sizing"] = (run.sizing.table, "in the week", "sizing.csv: the beds each week needs")
+        sheets["roster"] = (run.sizing.roster, "per shift", "roster.csv: nurses needed")
+    return sheets
 
 
 def _sizing_sections(run: RunResult, pictures: dict[str, bytes]) -> list[tuple[str, str]]:

@@ -9,6 +9,7 @@ import pandas as pd
 
 from planner.report import charts, html
 from planner.report.files import run_record, write_csv, write_json
+from planner.report.workbook import write_workbook
 from planner.results import SizingResult
 
 #: The measure in words, for the chart's axis.
@@ -167,6 +168,12 @@ def write_sizing_files(result: SizingResult, folder: Path) -> None:
     write_csv(result.table, folder / "sizing.csv")
     write_csv(result.candidates, folder / "sizing_candidates.csv")
     write_csv(result.roster, folder / "roster.csv")
+    sheets = {
+        "sizing": (result.table, "in the week", "sizing.csv: the beds each week needs"),
+        "roster": (result.roster, "per shift", "roster.csv: nurses needed per shift and weekday"),
+        "candidates": (result.candidates, "in the week", "sizing_candidates.csv: every count"),
+    }
+    write_workbook(sheets, folder / "sizing.xlsx")
     picture = sizing_picture(result)
     (folder / "sizing.png").write_bytes(picture)
     (folder / "sizing.html").write_text(sizing_page(result, picture))
