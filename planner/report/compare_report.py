@@ -92,14 +92,14 @@ def glance_view(summary: pd.DataFrame, weeks: int, paired: bool = True) -> pd.Da
             f"patients finding no free bed ({total})": summary["expected_patients_affected"].map(
                 "{:.1f}".format
             ),
-            f"change against the first plan (patients, {_se_name(paired)})": _against(
+            f"change against the first plan (patients, total, {_se_name(paired)})": _against(
                 reference, _pm(summary["change_vs_first"], summary["change_se"], "+.1f")
             ),
             f"chance of a shift short of nurses in any of the {weeks} weeks (% of paths)": summary[
                 "p_staff_shortfall_any_week"
             ].map(percent),
             f"short shifts ({total})": summary["expected_short_shifts"].map("{:.1f}".format),
-            f"change against the first plan (short shifts, {_se_name(paired)})": _against(
+            f"change against the first plan (short shifts, total, {_se_name(paired)})": _against(
                 reference,
                 _pm(
                     summary["short_shifts_change_vs_first"],
