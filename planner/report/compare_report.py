@@ -6,7 +6,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from planner.report import charts, html
+from planner.report import html, plan_charts
 from planner.report.files import run_record, write_csv, write_json
 from planner.report.workbook import write_workbook
 from planner.results import Comparison
@@ -22,7 +22,7 @@ def write_compare_files(comparison: Comparison, folder: Path) -> None:
     if comparison.costs is not None:
         sheets["costs"] = (comparison.costs, "total over the horizon", "costs.csv: per plan")
     write_workbook(sheets, folder / "comparison.xlsx")
-    picture = charts.comparison_chart(comparison.table)
+    picture = plan_charts.comparison_chart(comparison.table)
     (folder / "comparison.png").write_bytes(picture)
     (folder / "comparison.html").write_text(compare_page(comparison, picture))
     first = comparison.runs[0]

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from planner.report import charts, html
+from planner.report import html, plan_charts
 from planner.report.files import run_record, write_csv, write_json
 from planner.report.workbook import write_workbook
 from planner.results import SizingResult
@@ -144,7 +144,7 @@ def sizing_picture(result: SizingResult) -> bytes:
         "85% occupancy": result.classical.occupancy_beds,
         "Erlang loss": result.classical.erlang_beds,
     }
-    return charts.risk_against_beds(
+    return plan_charts.risk_against_beds(
         result.candidates, result.target.target, marks, AXIS[result.target.measure]
     )
 
