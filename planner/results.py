@@ -27,14 +27,17 @@ HINDCAST_SIDECAR = "hindcast.json"
 @dataclass(frozen=True)
 class RunSummary:
     """The tables of a run across paths: ``weekly`` (weekly.csv), ``daily`` (daily.csv),
-    ``shifts`` (shifts.csv), the headline :class:`Outlook`, and the recorded midnight census
-    of the weeks before the forecast (None without episodes)."""
+    ``shifts`` (shifts.csv), the headline :class:`Outlook`, the recorded midnight census
+    of the weeks before the forecast (None without episodes) and ``shift_weekdays``
+    (shift_weekdays.csv: the chance of a short shift and of a full ward by shift and
+    weekday)."""
 
     weekly: pd.DataFrame
     daily: pd.DataFrame
     shifts: pd.DataFrame
     outlook: Outlook
     recent_census: pd.Series | None
+    shift_weekdays: pd.DataFrame | None = None
 
 
 @dataclass(frozen=True)
@@ -82,14 +85,17 @@ class RunResult:
 
 @dataclass(frozen=True)
 class Comparison:
-    """Plans run with common random numbers: the runs (the first is the reference), the
+    """Plans compared with the first: the runs (the first is the reference), the
     comparison.csv table, the costs.csv table (None when no plan gives costs) and the glance
-    table (one row per plan over the horizon)."""
+    table (one row per plan over the horizon). ``paired``: the plans share their history and
+    forecast and were run with common random numbers (differences path by path); otherwise
+    they were compared as independent runs, each with its own seed."""
 
     runs: tuple[RunResult, ...]
     table: pd.DataFrame
     costs: pd.DataFrame | None
     glance: pd.DataFrame
+    paired: bool = True
 
 
 @dataclass(frozen=True)

@@ -657,6 +657,13 @@ TABLES = (
             Key("nurse_shift", "float", 0.0, "Per rostered nurse shift.", minimum=0.0),
             Key("diverted_patient", "float", 0.0, "Per patient placed elsewhere.", minimum=0.0),
             Key("waiting_hour", "float", 0.0, "Per patient-hour waiting for a bed.", minimum=0.0),
+            Key(
+                "short_shift",
+                "float",
+                0.0,
+                "Per shift short of registered nurses (for instance the agency cover it needs).",
+                minimum=0.0,
+            ),
         ),
     ),
 )

@@ -25,6 +25,25 @@ def test_check_missing_file_is_one_line_exit_2(tmp_path):
     assert len(result.output.strip().splitlines()) == 1
 
 
+def test_refusals_start_with_the_file_through_the_entry_point(tmp_path):
+    # The README's promise: a refusal is one line on stderr that starts with the file (or
+    # key) it names, exit status 2, nothing on stdout, no traceback; run as a user would.
+    import subprocess
+    import sys
+
+    absent = tmp_path / "absent.toml"
+    done = subprocess.run(
+        [sys.executable, "-m", "planner", "check", str(absent)],
+        capture_output=True,
+        text=True,
+        cwd=Path(__file__).resolve().parents[1],
+    )
+    assert done.returncode == 2
+    assert done.stdout == ""
+    lines = done.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith(f"{absent}:"), done.stderr
+
+
 def test_check_bad_history_file(tmp_path):
     (tmp_path / "ward.csv").write_text("date,admissions\n2026-01-01,3\n2026-01-01,2\n")
     (tmp_path / "plan.toml").write_text(

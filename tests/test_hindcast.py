@@ -13,8 +13,8 @@ from wards import ROTA
 
 from planner.errors import PlannerError
 from planner.records.census import census_series
+from planner.report.assumptions import hindcast_line
 from planner.report.hindcast_report import write_hindcast_files
-from planner.report.run_report import hindcast_line
 from planner.runs.hindcast import default_origins, hindcast, hindcast_origin, latest_hindcast
 from planner.runs.run import load_history
 from planner.scenario import load_scenario

@@ -8,7 +8,7 @@ from level_change_data import stepped_admissions
 from wards import ROTA
 
 from planner.cli import cli
-from planner.report.run_report import NO_DRIFT
+from planner.report.assumptions import NO_DRIFT
 
 SEED = 100  # a series whose declared step leaves the in-sample CUSUM quiet (as in 17 of 20)
 
@@ -66,7 +66,7 @@ def test_a_later_change_without_a_size_is_refused(tmp_path):
     result = CliRunner().invoke(cli, ["check", str(plan)])
     assert result.exit_code == 2
     assert result.output.strip() == (
-        f"Error: {plan}: forecast.level_change[1].relative_change: required for a change after "
+        f"{plan}: forecast.level_change[1].relative_change: required for a change after "
         f"the history ends ({history.index[-1].date()}); give the expected change, e.g. 0.1 "
         f"for +10%"
     )

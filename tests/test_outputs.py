@@ -72,10 +72,7 @@ def test_cli_refuses_non_empty_out_without_overwrite(tmp_path):
     target, before = earlier_run(tmp_path)
     result = CliRunner().invoke(cli, ["run", str(small_ward(tmp_path)), "--out", str(target)])
     assert result.exit_code == 2
-    assert (
-        result.output.strip()
-        == f"Error: {target}: folder exists and is not empty (use --overwrite)"
-    )
+    assert result.output.strip() == f"{target}: folder exists and is not empty (use --overwrite)"
     assert contents(target) == before
 
 

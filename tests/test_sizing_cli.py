@@ -36,7 +36,7 @@ def test_size_writes_the_files_and_says_the_answer(tmp_path):
         "week, this ward needs" in result.output  # fmt: skip
     assert "professional judgement" in result.output
     names = {"sizing.csv", "sizing_candidates.csv", "roster.csv", "sizing.png", "sizing.html",
-             "run.json"}  # fmt: skip
+             "sizing.xlsx", "run.json"}  # fmt: skip
     assert names == {path.name for path in out.iterdir()}
     table = pd.read_csv(out / "sizing.csv")
     assert list(table["period"]) == [f"week {w}" for w in range(1, 5)] + ["overall"]

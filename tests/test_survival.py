@@ -183,3 +183,18 @@ def test_scenario_settings_use_censored_stays():
         fit_censored_stays(durations, observed[:-1])
     with pytest.raises(PlannerError, match="no stay has ended"):
         kaplan_meier([1.0, 2.0], np.array([False, False]))
+
+
+def test_remaining_stays_past_the_last_ended_stay_without_censoring():
+    # Four ended stays, none censored: S(t) = 0.75, 0.5, 0.25, 0 after 1, 2, 3, 4 days, so no
+    # stay is left beyond 4 days. A patient 1 day in with u = 0.5 has target 0.5 x S(1) =
+    # 0.375, first passed at 3 days (S = 0.25): 2 days left (worked by hand). Patients at or
+    # past 4 days have the documented exponential tail (mean tail_mean_days), with no 0/0 on
+    # the way (warnings are errors in the test run) and no NaN.
+    d = KaplanMeierStays(np.array([1.0, 2.0, 3.0, 4.0]), np.ones(4, dtype=bool))
+    u = np.array([0.5, 0.5, 0.5])
+    remaining = d.remaining_from_uniforms(u, np.array([1.0, 4.0, 5.0]))
+    assert remaining[0] == pytest.approx(2.0)
+    tail = -d.tail_mean_days * np.log(0.5)
+    np.testing.assert_allclose(remaining[1:], [tail, tail])
+    assert np.isfinite(remaining).all()

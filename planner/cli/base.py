@@ -17,12 +17,16 @@ from planner.schema import choices
 
 
 class UserError(click.ClickException):
-    """A PlannerError shown as one line, exit status 2."""
+    """A PlannerError shown as one line on stderr that starts with the file or key it names
+    (no "Error: " prefix), exit status 2."""
 
     exit_code = 2
 
     def format_message(self) -> str:
         return self.message
+
+    def show(self, file=None) -> None:
+        click.echo(self.format_message(), file=file, err=True)
 
 
 def user_errors(command: Callable[..., Any]) -> Callable[..., Any]:

@@ -81,10 +81,17 @@ def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, schedu
     "scenarios", nargs=-1, required=True, type=click.Path(dir_okay=False, path_type=Path)
 )
 @output_options
+@click.option(
+    "--independent",
+    is_flag=True,
+    help="Compare plans that do not share their history and forecast (different wards, "
+    "history files or forecast settings) as independent runs, each with its own seed and "
+    "unpaired standard errors.",
+)
 @simulation_options
 @user_errors
 def compare(
-    scenarios: tuple[Path, ...], out, overwrite, paths, seed, engine, jobs, scheduler
+    scenarios: tuple[Path, ...], out, overwrite, paths, seed, independent, engine, jobs, scheduler
 ) -> None:
     """Compare ward plans (the first is the reference) with common random numbers:
     comparison.csv, costs.csv, a chart and comparison.html."""
@@ -101,12 +108,21 @@ def compare(
 
     with atomic_folder(target, overwrite) as folder:
         options = run_options(paths, seed, engine, jobs, scheduler)
-        result = compare_scenarios(list(scenarios), options, progress)
+        result = compare_scenarios(list(scenarios), options, progress, independent)
         write_compare_files(result, folder)
+    if independent:
+        click.echo(INDEPENDENT_NOTE)
     click.echo(result.glance.to_string(index=False, float_format=lambda v: f"{v:.3f}"))
     if result.costs is not None:
         click.echo(result.costs.to_string(index=False, float_format=lambda v: f"{v:,.1f}"))
     click.echo(f"wrote {target}/comparison.html")
+
+
+#: Said by `planner compare --independent` before its table.
+INDEPENDENT_NOTE = (
+    "compared as independent runs (--independent): each plan has its own seed and every "
+    "difference has the unpaired standard error"
+)
 
 
 #: Hindcast defaults: past start dates over the last 26 weeks, paths per start date.

@@ -19,6 +19,7 @@ matplotlib.use("Agg")
 
 import matplotlib.dates as mdates  # noqa: E402
 import matplotlib.pyplot as plt  # noqa: E402
+import matplotlib.ticker as mticker  # noqa: E402
 import numpy as np  # noqa: E402
 import pandas as pd  # noqa: E402
 
@@ -45,8 +46,8 @@ class Margins:
     wspace: float = 0.04
 
 
-#: Two-line date ticks and a one-row legend under them.
-DATES_AND_LEGEND = Margins(bottom=1.1)
+#: Two-line date ticks, an axis label and a legend of up to two rows under them.
+DATES_AND_LEGEND = Margins(bottom=1.45)
 #: Two-line date ticks.
 DATES = Margins(bottom=0.6)
 #: Two-line tick labels and an axis label.
@@ -55,6 +56,33 @@ TWO_LINES_AND_LABEL = Margins(bottom=0.85, right=0.25)
 LABEL = Margins(bottom=0.6, right=0.3)
 #: Two panels side by side, each with one-line tick labels and axis labels.
 SIDE_BY_SIDE = Margins(bottom=0.6, right=0.3, wspace=0.3)
+#: Two panels side by side, each with two-line date ticks and an axis label.
+SIDE_BY_SIDE_DATES = Margins(bottom=0.85, right=0.3, wspace=0.08)
+#: Stacked panels with two-line date ticks and an axis label under the last.
+DATES_AND_LABEL = Margins(bottom=0.85)
+
+#: The legend's words for error bars, which are 95% intervals throughout.
+ERROR_BARS = "bars: 95% interval (±1.96 SE)"
+
+
+def whole_numbers(axis) -> None:
+    """Ticks on whole numbers only (counts of nurses, beds, patients)."""
+    axis.set_major_locator(mticker.MaxNLocator(integer=True))
+
+
+def percent_axis(axes: plt.Axes) -> None:
+    """A y axis of shares (0-1) labelled in percent."""
+    axes.yaxis.set_major_formatter(mticker.PercentFormatter(1.0, decimals=0))
+
+
+def week_ticks(axes: plt.Axes, week_start, positions, most: int = 14) -> None:
+    """Week axis ticks: the week's number and its first day ("3\n14 Dec"), at most ``most``
+    of them."""
+    labels = [
+        f"{number}\n{pd.Timestamp(start):%d %b}" for number, start in enumerate(week_start, start=1)
+    ]
+    step = -(-len(labels) // most)
+    axes.set_xticks(positions[::step], labels[::step])
 
 
 def title(axes: plt.Axes, text: str, **style) -> None:
@@ -80,15 +108,16 @@ def png(figure: plt.Figure, margins: Margins) -> bytes:
     return buffer.getvalue()
 
 
-def _date_axis(axes: plt.Axes) -> None:
+def _date_axis(axes: plt.Axes, label: str = "date") -> None:
     axes.xaxis.set_major_locator(mdates.AutoDateLocator(maxticks=10))
     axes.xaxis.set_major_formatter(mdates.DateFormatter("%d %b\n%Y"))
+    axes.set_xlabel(label, fontsize=9)
     axes.grid(alpha=0.3)
 
 
 def _legend_below(axes: plt.Axes) -> None:
-    """Legend in one row under the plot, clear of the data."""
-    axes.legend(loc="upper center", bbox_to_anchor=(0.5, -0.2), fontsize=8, ncol=6, frameon=False)
+    """Legend in one row under the plot and its axis label, clear of the data."""
+    axes.legend(loc="upper center", bbox_to_anchor=(0.5, -0.3), fontsize=8, ncol=5, frameon=False)
 
 
 def _fan(axes: plt.Axes, dates, table: pd.DataFrame, prefix: str, label: str) -> None:
@@ -114,6 +143,7 @@ def admissions_fan(history: pd.Series, forecast: pd.DataFrame, weeks_of_history:
     _fan(axes, dates, forecast, "q", "forecast median")
     axes.plot(dates, forecast["mean"], color=LINE, linewidth=1, linestyle="--", label="mean")
     axes.set_ylabel("emergency admissions per day")
+    whole_numbers(axes.yaxis)
     title(axes, "Admissions: recent history and forecast")
     _legend_below(axes)
     _date_axis(axes)
@@ -121,22 +151,28 @@ def admissions_fan(history: pd.Series, forecast: pd.DataFrame, weeks_of_history:
 
 
 def census_fan(daily: pd.DataFrame, recorded: pd.Series | None = None) -> bytes:
-    """Midnight census bands across paths against beds open (daily.csv columns), after the
-    ``recorded`` census of recent weeks when given."""
+    """Occupied beds against beds open (daily.csv columns): the bands of the midnight census
+    across paths, the median and 90% quantile of each day's highest occupancy (the moment
+    when patients start to wait), after the ``recorded`` midnight census of recent weeks."""
     figure, axes = plt.subplots(figsize=(10, 4))
     if recorded is not None and len(recorded):
         axes.plot(
             recorded.index, recorded.to_numpy(), color=GREY, linewidth=1, label="recorded census"
         )
     dates = pd.to_datetime(daily["date"])
-    _fan(axes, dates, daily, "census_p", "median census")
+    _fan(axes, dates, daily, "census_p", "median midnight census")
+    axes.plot(dates, daily["peak_occupancy_p50"], color=LINE, linewidth=1, linestyle=":",
+              label="day's highest, median")  # fmt: skip
+    axes.plot(dates, daily["peak_occupancy_p90"], color=LINE, linewidth=1, linestyle="--",
+              label="day's highest, 90% of paths")  # fmt: skip
     axes.step(
         dates, daily["beds_open"], where="mid", color="black", linewidth=1.5, label="beds open"
     )
-    axes.set_ylabel("patients in beds at midnight")
-    title(axes, "Census against beds open")
-    _legend_below(axes)
+    axes.set_ylabel("occupied beds (patients)")
+    whole_numbers(axes.yaxis)
+    title(axes, "Occupied beds against beds open: at midnight (bands) and at the day's peak")
     _date_axis(axes)
+    _legend_below(axes)
     return png(figure, DATES_AND_LEGEND)
 
 
@@ -160,23 +196,25 @@ def shortfall_probabilities(weekly: pd.DataFrame) -> bytes:
             capsize=2,
             label=label,
         )
-    axes.set_xticks(
-        weeks, [f"{w}\n{d[5:]}" for w, d in zip(weeks, weekly["week_start"], strict=True)]
-    )
+    axes.errorbar([], [], yerr=[], color="black", capsize=2, linestyle="", label=ERROR_BARS)
+    week_ticks(axes, weekly["week_start"], weeks)
     axes.set_ylim(0, 1)
-    axes.set_xlabel("forecast week (and its first day)")
-    axes.set_ylabel("probability")
+    percent_axis(axes)
+    axes.set_xlabel("forecast week: number and first day")
+    axes.set_ylabel("chance in the week (% of paths)")
     title(axes, "Chance of running short, by week")
-    axes.legend(loc="upper left", fontsize=8)
+    axes.legend(loc="upper left", fontsize=8, ncol=3)
     axes.grid(axis="y", alpha=0.3)
     return png(figure, TWO_LINES_AND_LABEL)
 
 
 def nurses_against_roster(shifts: pd.DataFrame) -> bytes:
-    """Per shift: nurses required (median and 90% quantile across paths) against rostered."""
+    """Per shift: nurses required (median and 90% quantile across paths) against rostered.
+    The 90% quantile is drawn as a wide pale line over the band, so it shows where it equals
+    the median."""
     names = list(dict.fromkeys(shifts["shift"]))
     figure, panels = plt.subplots(
-        len(names), 1, figsize=(10, 2.6 * len(names)), sharex=True, squeeze=False
+        len(names), 1, figsize=(10, 2.6 * len(names) + 0.4), sharex=True, squeeze=False
     )
     for axes, name in zip(panels[:, 0], names, strict=True):
         rows = shifts[shifts["shift"] == name]
@@ -188,51 +226,30 @@ def nurses_against_roster(shifts: pd.DataFrame) -> bytes:
             color=BAND,
             alpha=0.3,
             step="mid",
-            label="required, median to 90%",
         )
-        axes.step(dates, rows["nurses_required_p50"], where="mid", color=LINE, linewidth=1)
+        axes.step(dates, rows["nurses_required_p90"], where="mid", color=BAND, alpha=0.45,
+                  linewidth=5, label="required in 90% of paths")  # fmt: skip
+        axes.step(dates, rows["nurses_required_p50"], where="mid", color=LINE, linewidth=1,
+                  label="required, median")  # fmt: skip
         axes.step(
             dates,
             rows["nurses_rostered"],
             where="mid",
             color="black",
             linewidth=1.5,
+            linestyle="--",
             label="rostered",
         )
-        axes.set_ylabel(f"{name}: nurses")
-        axes.legend(loc="upper left", fontsize=8, ncol=2)
-        _date_axis(axes)
-    title(panels[0, 0], "Registered nurses required against rostered")
-    return png(figure, DATES)
-
-
-def comparison_chart(comparison: pd.DataFrame) -> bytes:
-    """By week and scenario: the probability of a bed shortfall and of a shift short of
-    nurses, with 95% error bars (1.96 standard errors)."""
-    figure, panels = plt.subplots(1, 2, figsize=(12, 4), sharey=True)
-    measures = (
-        ("p_bed_shortfall", "no free bed at some moment"),
-        ("p_staff_shortfall", "at least one shift short of nurses"),
-    )
-    for axes, (column, event) in zip(panels, measures, strict=True):
-        for number, (name, rows) in enumerate(comparison.groupby("scenario", sort=False)):
-            weeks = np.arange(1, len(rows) + 1) + 0.08 * number
-            axes.errorbar(
-                weeks,
-                rows[column],
-                yerr=1.96 * rows[f"{column}_se"],
-                marker="o",
-                markersize=3,
-                capsize=2,
-                label=name,
-            )
-        axes.set_ylim(0, 1)
-        axes.set_xlabel("forecast week")
-        title(axes, f"P({event})", fontsize=10)
+        axes.set_ylabel(f"{name} shift:\nregistered nurses", fontsize=9)
+        whole_numbers(axes.yaxis)
+        low = min(rows["nurses_required_p50"].min(), rows["nurses_rostered"].min())
+        high = max(rows["nurses_required_p90"].max(), rows["nurses_rostered"].max())
+        axes.set_ylim(max(low - 1, 0), high + 1)
+        axes.legend(loc="upper left", fontsize=8, ncol=3)
         axes.grid(alpha=0.3)
-    panels[0].set_ylabel("probability")
-    panels[0].legend(fontsize=8, loc="upper left")
-    return png(figure, LABEL)
+    _date_axis(panels[-1, 0], "date (the day the shift starts)")
+    title(panels[0, 0], "Registered nurses required (per shift) against rostered")
+    return png(figure, DATES_AND_LABEL)
 
 
 def discharge_pattern(daily: pd.DataFrame, hour_profile: np.ndarray | None) -> bytes:
@@ -245,7 +262,8 @@ def discharge_pattern(daily: pd.DataFrame, hour_profile: np.ndarray | None) -> b
     by_weekday = daily["expected_discharges"].groupby(weekday).mean().reindex(range(7))
     names = ["Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun"]
     axes[0, 0].bar(names, by_weekday.to_numpy(), color=BAND, alpha=0.8)
-    axes[0, 0].set_ylabel("discharges a day (mean)")
+    axes[0, 0].set_ylabel("discharges per day (mean over paths)")
+    axes[0, 0].set_xlabel("weekday")
     title(axes[0, 0], "Simulated discharges by weekday")
     if hour_profile is not None:
         edges = np.arange(25)
@@ -254,33 +272,10 @@ def discharge_pattern(daily: pd.DataFrame, hour_profile: np.ndarray | None) -> b
             share = hour_profile[rows].mean(axis=0)
             axes[0, 1].stairs(100 * share, edges, color=colour, label=label)
         axes[0, 1].set_xticks(range(0, 25, 3))
-        axes[0, 1].set_xlabel("hour of the day")
+        axes[0, 1].set_xlabel("hour of the day (24-hour clock)")
         axes[0, 1].set_ylabel("% of the day's discharges")
         axes[0, 1].legend(loc="upper left", fontsize=8)
         title(axes[0, 1], "Discharges by hour")
     for panel in axes[0]:
         panel.grid(axis="y", alpha=0.3)
     return png(figure, SIDE_BY_SIDE)
-
-
-def risk_against_beds(candidates: pd.DataFrame, target: float, marks: dict[str, int], label: str):
-    """The worst week's risk (column ``risk`` of the candidates table, with 95% error bars of
-    1.96 standard errors) against beds, the ``target`` as a dashed line, and each of ``marks``
-    (name -> beds: the answer, the current beds, the classical sizes) as a labelled line."""
-    worst = candidates.loc[candidates.groupby("beds")["risk"].idxmax()]
-    figure, axes = plt.subplots(figsize=(10, 4))
-    axes.errorbar(worst["beds"], worst["risk"], yerr=1.96 * worst["risk_se"], color=LINE,
-                  marker="o", markersize=3, capsize=2, label="worst week, simulated")  # fmt: skip
-    axes.axhline(target, color="black", linestyle="--", linewidth=1, label="target")
-    top = float(max(worst["risk"].max(), target)) * 1.05
-    styles = (":", "-.", "--", "-")
-    for number, (name, beds) in enumerate(marks.items()):
-        axes.axvline(beds, color=GREY, linestyle=styles[number % 4], linewidth=1)
-        axes.text(beds, top * (0.95 - 0.07 * number), f" {name}: {beds}", fontsize=8)
-    axes.set_ylim(0, top)
-    axes.set_xlabel("beds")
-    axes.set_ylabel(label)
-    title(axes, "Risk against beds, same simulated patients for every count")
-    axes.legend(loc="center right", fontsize=8)
-    axes.grid(alpha=0.3)
-    return png(figure, LABEL)

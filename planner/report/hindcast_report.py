@@ -27,25 +27,37 @@ from planner.report import charts, html
 from planner.report.files import run_record, write_csv, write_json
 from planner.results import HINDCAST_SIDECAR, HindcastResult
 
+#: The PIT p-value under which calibration is called not acceptable (the page says why).
+PIT_WARNING = 0.01
+#: The share of days the 80% band must hold for calibration to be called acceptable.
+COVERAGE_80_RANGE = (0.70, 0.90)
+#: Made in planner/report/charts.py's style: room for a two-line axis label under the PIT.
+PIT_MARGINS = charts.Margins(bottom=0.95, right=0.3)
+
 
 def pit_histogram(counts: np.ndarray) -> bytes:
     """PIT bin counts against the flat line of a calibrated forecast, with a band of two
     binomial standard errors (independent days; real days are dependent, so wider)."""
     plt = charts.plt
-    figure, axes = plt.subplots(figsize=(6, 3.5))
+    figure, axes = plt.subplots(figsize=(8, 3.8))
     bins = len(counts)
     total = counts.sum()
     expected = total / bins
     spread = 2 * np.sqrt(total * (1 / bins) * (1 - 1 / bins))
     axes.bar((np.arange(bins) + 0.5) / bins, counts, width=0.9 / bins, color=charts.BAND)
-    axes.axhline(expected, color="black", linewidth=1, label="calibrated")
-    axes.axhspan(expected - spread, expected + spread, color=charts.GREY, alpha=0.15)
+    axes.axhline(expected, color="black", linewidth=1, label="calibrated: equal counts")
+    axes.axhspan(expected - spread, expected + spread, color=charts.GREY, alpha=0.15,
+                 label="calibrated ± 2 binomial SE")  # fmt: skip
     axes.set_xlim(0, 1)
-    axes.set_xlabel("randomised PIT of the recorded census")
-    axes.set_ylabel("origin-weeks")
+    axes.set_xlabel(
+        "where the recorded census fell among the forecast paths (randomised PIT:\n"
+        "0 = below every path, 1 = above every path)"
+    )
+    axes.set_ylabel("origin-weeks (count)")
+    charts.whole_numbers(axes.yaxis)
     charts.title(axes, "Where the recorded census fell in the forecast")
     axes.legend(fontsize=8)
-    return charts.png(figure, charts.LABEL)
+    return charts.png(figure, PIT_MARGINS)
 
 
 def coverage_chart(summary: pd.DataFrame) -> bytes:
@@ -66,22 +78,54 @@ def coverage_chart(summary: pd.DataFrame) -> bytes:
                 label=f"{who} {percent}%",
             )
     axes.set_ylim(0, 1.02)
-    axes.set_xlabel("horizon week")
-    axes.set_ylabel("share of days inside the interval")
-    charts.title(axes, "Census interval coverage (black: nominal)")
+    charts.percent_axis(axes)
+    charts.whole_numbers(axes.xaxis)
+    axes.set_xlabel("horizon week (weeks after the start date)")
+    axes.set_ylabel("days inside the band (% of days)")
+    charts.title(axes, "Census band coverage by horizon week (black lines: 50, 80, 95%)")
     axes.legend(fontsize=7, ncol=3, loc="lower left")
     axes.grid(alpha=0.3)
     return charts.png(figure, charts.LABEL)
 
 
+def calibration_acceptable(result: HindcastResult) -> bool:
+    """Acceptable here: the PIT test's p-value at least :data:`PIT_WARNING` and the 80% band
+    holding a share of days inside :data:`COVERAGE_80_RANGE`."""
+    low, high = COVERAGE_80_RANGE
+    coverage = result.overall()["model_coverage_80"]
+    return bool(result.p_value >= PIT_WARNING and low <= coverage <= high)
+
+
+def _tails(result: HindcastResult) -> str:
+    """Where the recorded census fell in the outer tenths of the forecast."""
+    counts = np.asarray(result.pit_counts, dtype=float)
+    total = counts.sum()
+    if total == 0:
+        return ""
+    below, above = counts[0] / total, counts[-1] / total
+    return (
+        f" The recorded census fell below the forecast's 10% line on {below:.0%} of the sampled "
+        f"days and above its 90% line on {above:.0%} (about 10% each when calibrated)."
+    )
+
+
 def headline(result: HindcastResult) -> str:
-    """One sentence on the 80% band over all origins."""
+    """The plain-language headline: how often the 80% band held, whether the model beat the
+    simple baseline, and whether calibration is acceptable."""
     overall = result.overall()
+    model, naive = overall["model_pinball"], overall["naive_pinball"]
+    beat = "beat" if model < naive else "did not beat"
+    low, high = COVERAGE_80_RANGE
+    verdict = "is acceptable" if calibration_acceptable(result) else "is not acceptable"
     return (
         f"Over the last {result.weeks} weeks ({len(result.origins)} past start dates), the 80% "
-        f"census band of this setup held {overall['model_coverage_80']:.0%} of days (naive "
-        f"baseline: {overall['naive_coverage_80']:.0%}); pinball loss "
-        f"{overall['model_pinball']:.2f} patients against {overall['naive_pinball']:.2f}."
+        f"census band of this setup held {overall['model_coverage_80']:.0%} of days (a "
+        f"calibrated band holds about 80%; the simple baseline's held "
+        f"{overall['naive_coverage_80']:.0%}). The model {beat} the simple baseline, the "
+        f"census at the start carried forward: mean pinball loss {model:.2f} patients against "
+        f"{naive:.2f} (lower is better). Calibration {verdict} (here: the 80% band holding "
+        f"{low:.0%}-{high:.0%} of days and the PIT test's p-value at least {PIT_WARNING:g}; "
+        f"p = {result.p_value:.3f})." + _tails(result)
     )
 
 
@@ -129,9 +173,6 @@ def hindcast_page(result, pictures: dict[str, bytes]) -> str:
         f"{result.origins[-1].date()}, horizon {result.horizon_days} days, {result.paths} "
         f"paths per origin, seed {result.seed}."
     )
-    reliability = result.reliability[
-        ["threshold", "bin_from", "bin_to", "days", "mean_predicted", "observed_frequency"]
-    ]
     method = [
         (
             "Data at each origin",
@@ -158,22 +199,22 @@ def hindcast_page(result, pictures: dict[str, bytes]) -> str:
         ),
         *(("Note", note) for note in result.notes),
     ]
+    warning = (
+        ""
+        if result.p_value >= PIT_WARNING
+        else f'<p class="headline"><strong>Calibration warning:</strong> the PIT test gives p = '
+        f"{result.p_value:.3f}, under {PIT_WARNING:g}: the recorded census did not fall evenly "
+        f"across the forecast's range. Nearby weeks are correlated, so read it as a warning, "
+        f"not a verdict (Method, below).</p>"
+    )
     sections = [
-        ("", f'<p class="headline">{html.escape(headline(result))}</p>'),
+        ("", f'<p class="headline">{html.escape(headline(result))}</p>' + warning),
         ("By horizon week", html.table(summary_view(result.summary)) + SUMMARY_NOTE),
         ("Coverage", html.image(pictures["coverage.png"], "coverage by horizon week")),
         ("Calibration (PIT)", html.image(pictures["pit.png"], "PIT histogram")),
         (
             "Bed thresholds: reliability",
-            html.table(
-                reliability,
-                {
-                    "mean_predicted": ".2f",
-                    "observed_frequency": ".2f",
-                    "bin_from": ".1f",
-                    "bin_to": ".1f",
-                },
-            ),
+            html.table(reliability_view(result.reliability)) + RELIABILITY_NOTE,
         ),
         ("Method", html.facts(method)),
     ]
@@ -183,13 +224,27 @@ def hindcast_page(result, pictures: dict[str, bytes]) -> str:
 SUMMARY_NOTE = (
     "<p>Coverage: share of days on which the recorded census fell inside the central 50%, "
     "80% and 95% bands, for this setup and for the naive baseline (census at the start "
-    "carried forward). Pinball loss in patients, lower is better; skill = 1 - model / naive. "
-    "Brier score of P(census above beds - 2). All columns are in hindcast_summary.csv.</p>"
+    "carried forward). Pinball loss in patients, averaged over days and quantile levels, lower "
+    "is better; skill = 1 - model / naive. Brier score of the predicted chance that the census "
+    "is above beds - 2 (0 is perfect). All columns are in hindcast_summary.csv.</p>"
 )
+
+RELIABILITY_NOTE = (
+    "<p>Days grouped by the predicted chance that the census is above a threshold; a reliable "
+    "forecast has the observed share close to the mean predicted chance in every row. All "
+    "columns are in hindcast_reliability.csv.</p>"
+)
+
+#: The thresholds of hindcast_reliability.csv in words.
+THRESHOLDS = {
+    "over_beds": "census above beds",
+    "over_beds_minus_2": "census above beds - 2",
+    "over_beds_minus_4": "census above beds - 4",
+}
 
 
 def summary_view(summary: pd.DataFrame) -> pd.DataFrame:
-    """The summary with readable headers, coverages side by side."""
+    """The summary with headers that say their unit, coverages side by side."""
 
     def bands(prefix: str) -> pd.Series:
         parts = [summary[f"{prefix}_coverage_{p}"].map("{:.0%}".format) for p in (50, 80, 95)]
@@ -198,13 +253,30 @@ def summary_view(summary: pd.DataFrame) -> pd.DataFrame:
     return pd.DataFrame(
         {
             "horizon week": summary["horizon_week"].map(lambda w: "all" if w == 0 else str(w)),
-            "days scored": summary["days"],
-            "start dates": summary["origins"],
-            "coverage 50 / 80 / 95%": bands("model"),
-            "naive coverage": bands("naive"),
-            "pinball": summary["model_pinball"].map("{:.2f}".format),
-            "naive pinball": summary["naive_pinball"].map("{:.2f}".format),
-            "skill": summary["pinball_skill"].map("{:.0%}".format),
-            "Brier, beds - 2": summary["brier_over_beds_minus_2"].map("{:.3f}".format),
+            "days scored (count)": summary["days"],
+            "start dates (count)": summary["origins"],
+            "inside the 50 / 80 / 95% bands (% of days)": bands("model"),
+            "naive baseline inside the bands (% of days)": bands("naive"),
+            "pinball loss (patients per day)": summary["model_pinball"].map("{:.2f}".format),
+            "naive pinball loss (patients per day)": summary["naive_pinball"].map("{:.2f}".format),
+            "skill (% lower loss than naive)": summary["pinball_skill"].map("{:.0%}".format),
+            "Brier score, census above beds - 2 (0 to 1)": summary["brier_over_beds_minus_2"].map(
+                "{:.3f}".format
+            ),
+        }
+    )
+
+
+def reliability_view(reliability: pd.DataFrame) -> pd.DataFrame:
+    """hindcast_reliability.csv with readable headers."""
+    return pd.DataFrame(
+        {
+            "threshold": reliability["threshold"].map(lambda t: THRESHOLDS.get(t, t)),
+            "predicted chance (% range)": reliability["bin_from"].map("{:.0%}".format)
+            + " to "
+            + reliability["bin_to"].map("{:.0%}".format),
+            "days (count)": reliability["days"],
+            "mean predicted chance (%)": reliability["mean_predicted"].map("{:.1%}".format),
+            "observed share of days (%)": reliability["observed_frequency"].map("{:.1%}".format),
         }
     )

@@ -22,6 +22,8 @@ body { font-family: system-ui, sans-serif; margin: 2em auto; max-width: 70em; co
 h1 { font-size: 1.6em; margin-bottom: 0.2em; } h2 { font-size: 1.2em; margin-top: 1.6em; }
 .caution { border: 1px solid #888; padding: 0.6em 1em; background: #f4f4f4; }
 .headline { font-size: 1.15em; }
+.answer { font-size: 1.05em; } .answer dt { margin-top: 0.5em; }
+caption { text-align: left; font-size: 0.95em; padding: 0.3em 0; }
 table { border-collapse: collapse; font-size: 0.85em; }
 th, td { border-bottom: 1px solid #ddd; padding: 0.25em 0.6em; text-align: right; }
 th { background: #eef2f7; }

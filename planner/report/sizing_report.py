@@ -7,16 +7,18 @@ from pathlib import Path
 
 import pandas as pd
 
-from planner.report import charts, html
+from planner.report import html, plan_charts
 from planner.report.files import run_record, write_csv, write_json
+from planner.report.workbook import write_workbook
 from planner.results import SizingResult
 
 #: The measure in words, for the chart's axis.
 AXIS = {
-    "no_bed_week": "chance of a patient finding no free bed in a week",
-    "no_bed_share": "share of patients finding no free bed",
-    "wait_hours": "expected hours waited for a bed per week",
-    "cancelled_week": "chance of a planned patient being cancelled in a week",
+    "no_bed_week": "chance of a patient finding no free\nbed in the week (share of paths, 0-1)",
+    "no_bed_share": "share of the week's patients finding\nno free bed (0-1)",
+    "wait_hours": "hours waited for a bed (all patients\ntogether, per week, mean over paths)",
+    "cancelled_week": "chance of a planned patient being cancelled\n"
+    "in the week (share of paths, 0-1)",
 }
 
 METHOD = (
@@ -92,10 +94,20 @@ def sentence(result: SizingResult) -> str:
     return text
 
 
+#: The unit of each measure's risk, for table headers.
+UNIT = {
+    "no_bed_week": "% of paths, in the week",
+    "no_bed_share": "% of the week's patients",
+    "wait_hours": "hours, all patients together, per week",
+    "cancelled_week": "% of paths, in the week",
+}
+
+
 def week_view(result: SizingResult) -> pd.DataFrame:
-    """The per-week rows of sizing.csv with readable headers."""
+    """The per-week rows of sizing.csv with headers that say their unit and period."""
     rows = result.table.iloc[:-1]
     spec = ".1%" if result.target.is_share else ".1f"
+    unit = f"{UNIT[result.target.measure]}, ± 1 SE"
 
     def pm(column: str) -> pd.Series:
         return rows[column].map(lambda v: format(v, spec)) + " ± " + rows[f"{column}_se"].map(
@@ -104,26 +116,27 @@ def week_view(result: SizingResult) -> pd.DataFrame:
     return pd.DataFrame(
         {
             "week from": rows["week_start"],
-            "beds needed": rows["beds_needed"],
-            "risk with them": pm("risk"),
-            "with one bed fewer": pm("risk_one_fewer"),
-            f"with {result.current_beds} beds (now)": pm("risk_now"),
-            "85% occupancy rule": rows["occupancy_85_beds"],
-            "Erlang loss rule": rows["erlang_beds"],
+            "beds needed (base beds)": rows["beds_needed"],
+            f"risk with them ({unit})": pm("risk"),
+            f"risk with one bed fewer ({unit})": pm("risk_one_fewer"),
+            f"risk with {result.current_beds} beds, now ({unit})": pm("risk_now"),
+            "85% occupancy rule (beds)": rows["occupancy_85_beds"],
+            "Erlang loss rule (beds)": rows["erlang_beds"],
         }
     )
 
 
 def roster_view(roster: pd.DataFrame) -> pd.DataFrame:
     """roster.csv as a page table: one row per shift and weekday."""
+    worst = "% of paths, the worst such day"
     return pd.DataFrame(
         {
             "shift": roster["shift"],
             "weekday": roster["weekday"],
-            "rostered now": roster["nurses_rostered"],
-            "P(short) now": roster["p_short_rostered"].map("{:.1%}".format),
-            "nurses needed": roster["nurses_needed"],
-            "P(short) with them": roster["p_short_needed"].map("{:.1%}".format),
+            "nurses rostered now (per shift)": roster["nurses_rostered"],
+            f"chance short now ({worst})": roster["p_short_rostered"].map("{:.1%}".format),
+            "nurses needed (per shift)": roster["nurses_needed"],
+            f"chance short with them ({worst})": roster["p_short_needed"].map("{:.1%}".format),
         }
     )
 
@@ -135,7 +148,7 @@ def sizing_picture(result: SizingResult) -> bytes:
         "85% occupancy": result.classical.occupancy_beds,
         "Erlang loss": result.classical.erlang_beds,
     }
-    return charts.risk_against_beds(
+    return plan_charts.risk_against_beds(
         result.candidates, result.target.target, marks, AXIS[result.target.measure]
     )
 
@@ -169,6 +182,12 @@ def write_sizing_files(result: SizingResult, folder: Path) -> None:
     write_csv(result.table, folder / "sizing.csv")
     write_csv(result.candidates, folder / "sizing_candidates.csv")
     write_csv(result.roster, folder / "roster.csv")
+    sheets = {
+        "sizing": (result.table, "in the week", "sizing.csv: the beds each week needs"),
+        "roster": (result.roster, "per shift", "roster.csv: nurses needed per shift and weekday"),
+        "candidates": (result.candidates, "in the week", "sizing_candidates.csv: every count"),
+    }
+    write_workbook(sheets, folder / "sizing.xlsx")
     picture = sizing_picture(result)
     (folder / "sizing.png").write_bytes(picture)
     (folder / "sizing.html").write_text(sizing_page(result, picture))

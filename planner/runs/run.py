@@ -27,6 +27,7 @@ from planner.scenario import Scenario, load_scenario, plan_lines
 from planner.simulate.discharge_fit import describe_discharges
 from planner.simulate.model import RunOptions, WardModel, beds_open_by_day
 from planner.summaries.daily import summarise_daily, summarise_shifts
+from planner.summaries.shift_weekdays import shift_weekday_table
 from planner.summaries.weekly import outlook, weekly_paths, weekly_table
 
 #: Weeks of recorded census shown before the forecast.
@@ -285,5 +286,6 @@ def summarise_run(ward, weekly, history: WardHistory) -> RunSummary:
         daily=summarise_daily(ward),
         shifts=summarise_shifts(ward),
         outlook=outlook(weekly),
+        shift_weekdays=shift_weekday_table(ward, history.start),
         recent_census=None if census is None else census.iloc[-7 * RECENT_WEEKS :],
     )

@@ -172,13 +172,16 @@ class KaplanMeierStays(StayDistribution):
         return np.maximum(self._inverse(u, 0.0), MINIMUM_STAY_DAYS)
 
     def remaining_from_uniforms(self, u: np.ndarray, elapsed: np.ndarray) -> np.ndarray:
-        e = _elapsed_days(elapsed)
-        u = np.asarray(u, dtype=float)
-        beyond = e > self.estimate.largest
-        # Past the longest recorded stay the tail is exponential, so the remaining stay is too.
-        r_tail = -self.tail_mean_days * np.log(u)
-        r_steps = self._inverse(u * self.survival(e), e) - e
-        return np.maximum(np.where(beyond, r_tail, r_steps), MINIMUM_STAY_DAYS)
+        u, e = np.broadcast_arrays(np.asarray(u, dtype=float), _elapsed_days(elapsed))
+        left = self.survival(e)
+        # Past the longest recorded stay the tail is exponential, so the remaining stay is too;
+        # so it is where the estimate leaves no stay beyond the time spent (S(e) = 0: the
+        # longest recorded stay ended, nothing censored after it). Only the others are looked
+        # up in the steps (their targets u S(e) are above 0).
+        steps = (e <= self.estimate.largest) & (left > 0)
+        remaining = -self.tail_mean_days * np.log(u)
+        remaining[steps] = self._inverse(u[steps] * left[steps], e[steps]) - e[steps]
+        return np.maximum(remaining, MINIMUM_STAY_DAYS)
 
     def rescaled(self, factor: float) -> KaplanMeierStays:
         return KaplanMeierStays(self.durations * positive_number(factor, "factor"), self.observed)
