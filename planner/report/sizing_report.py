@@ -11,15 +11,7 @@ from planner.report import html, plan_charts
 from planner.report.files import run_record, write_csv, write_json
 from planner.report.workbook import write_workbook
 from planner.results import SizingResult
-
-#: The measure in words, for the chart's axis.
-AXIS = {
-    "no_bed_week": "chance of a patient finding no free\nbed in the week (share of paths, 0-1)",
-    "no_bed_share": "share of the week's patients finding\nno free bed (0-1)",
-    "wait_hours": "hours waited for a bed (all patients\ntogether, per week, mean over paths)",
-    "cancelled_week": "chance of a planned patient being cancelled\n"
-    "in the week (share of paths, 0-1)",
-}
+from planner.summaries.sizing import MEASURE_WORDS
 
 METHOD = (
     "<p>Every bed count is simulated on the same forecast paths with the same patients "
@@ -70,12 +62,7 @@ def sentence(result: SizingResult) -> str:
     sizes; says when the answer is within one standard error of the target."""
     target = result.target
     overall = result.table.iloc[-1]
-    what = {
-        "no_bed_week": "the weekly chance of a patient finding no free bed",
-        "no_bed_share": "the share of patients finding no free bed",
-        "wait_hours": "the expected hours waited for a bed",
-        "cancelled_week": "the weekly chance of a planned patient being cancelled",
-    }[target.measure]
+    what = MEASURE_WORDS[target.measure]["phrase"]
     erlang = "an Erlang loss rule" if target.is_share else (
         f"an Erlang loss rule at {target.erlang_share:.0%} of patients")  # fmt: skip
     text = (
@@ -94,20 +81,11 @@ def sentence(result: SizingResult) -> str:
     return text
 
 
-#: The unit of each measure's risk, for table headers.
-UNIT = {
-    "no_bed_week": "% of paths, in the week",
-    "no_bed_share": "% of the week's patients",
-    "wait_hours": "hours, all patients together, per week",
-    "cancelled_week": "% of paths, in the week",
-}
-
-
 def week_view(result: SizingResult) -> pd.DataFrame:
     """The per-week rows of sizing.csv with headers that say their unit and period."""
     rows = result.table.iloc[:-1]
     spec = ".1%" if result.target.is_share else ".1f"
-    unit = f"{UNIT[result.target.measure]}, ± 1 SE"
+    unit = f"{MEASURE_WORDS[result.target.measure]['unit']}, ± 1 SE"
 
     def pm(column: str) -> pd.Series:
         return rows[column].map(lambda v: format(v, spec)) + " ± " + rows[f"{column}_se"].map(
@@ -149,7 +127,7 @@ def sizing_picture(result: SizingResult) -> bytes:
         "Erlang loss": result.classical.erlang_beds,
     }
     return plan_charts.risk_against_beds(
-        result.candidates, result.target.target, marks, AXIS[result.target.measure]
+        result.candidates, result.target.target, marks, MEASURE_WORDS[result.target.measure]["axis"]
     )
 
 

@@ -38,6 +38,30 @@ MEASURES = choices("sizing.measure")
 #: The target when the scenario and the command line give none.
 DEFAULT_TARGETS = {"no_bed_week": 0.05, "no_bed_share": 0.05, "wait_hours": 24.0,
                    "cancelled_week": 0.05}  # fmt: skip
+#: Each measure in words: ``phrase`` for sentences, ``axis`` for a chart (two lines) and
+#: ``unit`` for table headers.
+MEASURE_WORDS = {
+    "no_bed_week": {
+        "phrase": "the weekly chance of a patient finding no free bed",
+        "axis": "chance of a patient finding no free\nbed in the week (share of paths, 0-1)",
+        "unit": "% of paths, in the week",
+    },
+    "no_bed_share": {
+        "phrase": "the share of patients finding no free bed",
+        "axis": "share of the week's patients finding\nno free bed (0-1)",
+        "unit": "% of the week's patients",
+    },
+    "wait_hours": {
+        "phrase": "the expected hours waited for a bed",
+        "axis": "hours waited for a bed (all patients\ntogether, per week, mean over paths)",
+        "unit": "hours, all patients together, per week",
+    },
+    "cancelled_week": {
+        "phrase": "the weekly chance of a planned patient being cancelled",
+        "axis": "chance of a planned patient being cancelled\nin the week (share of paths, 0-1)",
+        "unit": "% of paths, in the week",
+    },
+}
 #: Share of patients the Erlang loss size aims at when the measure is in hours.
 ERLANG_DEFAULT_SHARE = 0.05
 
@@ -71,12 +95,7 @@ class SizingTarget:
     def describe(self) -> str:
         """The measure and target in words, e.g. "the weekly chance of a patient finding no
         free bed under 5%"."""
-        what = {
-            "no_bed_week": "the weekly chance of a patient finding no free bed",
-            "no_bed_share": "the share of patients finding no free bed",
-            "wait_hours": "the expected hours waited for a bed in a week",
-            "cancelled_week": "the weekly chance of a planned patient being cancelled",
-        }[self.measure]
+        what = MEASURE_WORDS[self.measure]["phrase"]
         return f"{what} at or under {self.target_text()}"
 
     @property
