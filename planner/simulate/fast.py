@@ -38,7 +38,7 @@ _CENSUS, _PEAK, _ADMISSIONS, _BED_ADMISSIONS, _DISCHARGES, _WAITED, _DIVERTED, _
 _PLANNED, _CANCELLED = 8, 9
 
 
-@compiled_inline
+@compiled
 def _push(heap, size, value):  # pragma: no cover - compiled
     """Add ``value`` to the min-heap ``heap[:size]`` (4 children per entry: entry i's are
     4 i + 1 .. 4 i + 4); returns the new size."""
@@ -53,7 +53,7 @@ def _push(heap, size, value):  # pragma: no cover - compiled
     return size + 1
 
 
-@compiled_inline
+@compiled
 def _pop(heap, size):  # pragma: no cover - compiled
     """Remove the smallest entry of the 4-ary min-heap ``heap[:size]``; returns the new size.
     Four children per entry make the heap half as deep as a binary one: fewer of the
@@ -80,26 +80,24 @@ def _pop(heap, size):  # pragma: no cover - compiled
 
 
 @compiled_inline
-def _leave(bed_hour, k, stays, clock, planned, timing):  # pragma: no cover - compiled
-    """Hour of the discharge of new patient ``k`` who took a bed at ``bed_hour``: the stay
-    added, or with calendar discharges for an emergency patient the drawn discharge time (as
-    bed hour plus the time to it, the sum the SimPy model's timeout makes)."""
-    calendar, tables = timing
-    if calendar and not (planned.size > 0 and planned[k] == 1):
-        return bed_hour + (discharge_at(bed_hour, stays[k], clock[k], tables) - bed_hour)
-    return bed_hour + 24.0 * stays[k]
+def _calendar_leave(bed_hour, u, v, tables):  # pragma: no cover - compiled
+    """The drawn discharge time of an emergency patient with calendar discharges, as bed hour
+    plus the time to it (the sum the SimPy model's timeout makes). Copied into the loop only
+    when the loop is compiled for calendar discharges (``tables`` not None)."""
+    return bed_hour + (discharge_at(bed_hour, u, v, tables) - bed_hour)
 
 
 @compiled
-def _simulate_block(inputs, ward, records):  # pragma: no cover - compiled
+def _simulate_block(inputs, ward, records, tables):  # pragma: no cover - compiled
     """Simulate every path of a block. ``inputs``: (offsets, arrival hours, stay days,
-    remaining days, clock uniforms) as in ``DrawnInputs``; ``ward``: (beds open per day, shift
-    start hours in increasing order, True for policy "wait", (True for calendar discharges,
-    their tables)); ``records``: (counts (paths, days, 8) in the
-    order of ``COUNTED``, wait hours (paths, days), shift peaks (paths, days, shifts) in the
-    order of the start hours), filled in."""
+    remaining days, clock uniforms, planned flags) as in ``DrawnInputs``; ``ward``: (beds open
+    per day, shift start hours in increasing order, True for policy "wait", True when a
+    planned patient with no free bed is cancelled); ``records``: (counts (paths, days, 10) in
+    the order of ``COUNTED``, wait hours (paths, days), shift peaks (paths, days, shifts) in
+    the order of the start hours), filled in; ``tables``: the calendar discharge tables, or
+    None for stays as durations."""
     offsets, arrivals, stays, remaining, clock, planned = inputs
-    beds_open, starts, wait, timing, cancel = ward
+    beds_open, starts, wait, cancel = ward
     some_planned = planned.size > 0
     counts, wait_hours, shift_peak = records
     paths, days = wait_hours.shape
@@ -155,7 +153,10 @@ def _simulate_block(inputs, ward, records):  # pragma: no cover - compiled
                         counts[p, day, _BED_ADMISSIONS] += 1
                         if some_planned and planned[k] == 1:
                             counts[p, day, _PLANNED] += 1
-                        size = _push(heap, size, _leave(boundary, k, stays, clock, planned, timing))
+                        leave = boundary + 24.0 * stays[k]
+                        if tables is not None and not (some_planned and planned[k] == 1):
+                            leave = _calendar_leave(boundary, stays[k], clock[k], tables)
+                        size = _push(heap, size, leave)
                         day_peak = max(day_peak, level)
                         shift_level = max(shift_level, level)
                 continue  # beds given at 00:00 may leave before the event at t
@@ -171,7 +172,10 @@ def _simulate_block(inputs, ward, records):  # pragma: no cover - compiled
                     counts[p, day, _BED_ADMISSIONS] += 1
                     if some_planned and planned[k] == 1:
                         counts[p, day, _PLANNED] += 1
-                    size = _push(heap, size, _leave(t, k, stays, clock, planned, timing))
+                    leave = t + 24.0 * stays[k]
+                    if tables is not None and not (some_planned and planned[k] == 1):
+                        leave = _calendar_leave(t, stays[k], clock[k], tables)
+                    size = _push(heap, size, leave)
                 else:
                     level -= 1
             else:
@@ -182,7 +186,10 @@ def _simulate_block(inputs, ward, records):  # pragma: no cover - compiled
                     counts[p, day, _BED_ADMISSIONS] += 1
                     if is_planned:
                         counts[p, day, _PLANNED] += 1
-                    size = _push(heap, size, _leave(t, a, stays, clock, planned, timing))
+                    leave = t + 24.0 * stays[a]
+                    if tables is not None and not is_planned:
+                        leave = _calendar_leave(t, stays[a], clock[a], tables)
+                    size = _push(heap, size, leave)
                     day_peak = max(day_peak, level)
                     shift_level = max(shift_level, level)
                 elif is_planned and cancel:
@@ -219,21 +226,19 @@ def _records(inputs: DrawnInputs, model: WardModel, beds: np.ndarray, out, at: i
     cancel = model.planned is not None and model.planned.when_full == "cancel"
     _simulate_block(
         arrays,
-        (beds, np.asarray(starts, dtype=float), ward.policy == "wait", _timing(model), cancel),
+        (beds, np.asarray(starts, dtype=float), ward.policy == "wait", cancel),
         tuple(array[rows] for array in out),
+        _tables(model),
     )
 
 
-#: Stand-in tables for a model whose stays are durations (the loop's types stay the same).
-_NO_TABLES = (np.ones((7, 8)), np.float64(0.5), np.zeros((7, 25)), np.int64(0),
-              np.zeros((7, 1), np.int32), np.zeros((7, 1), np.int32))  # fmt: skip
-
-
-def _timing(model: WardModel):
-    """(True and the discharge tables) for calendar discharges, else (False, stand-ins)."""
+def _tables(model: WardModel):
+    """The discharge tables of calendar discharges, else None: the loop is then compiled
+    without the calendar branch (numba drops a branch on an argument that is None), which
+    keeps stays as durations as fast as before calendar discharges existed."""
     if model.discharges is None:
-        return (False, _NO_TABLES)
-    return (True, DischargeTables.build(model.discharges, model.start.weekday()).arrays())
+        return None
+    return DischargeTables.build(model.discharges, model.start.weekday()).arrays()
 
 
 def _result(model: WardModel, first_path: int, beds: np.ndarray, out) -> WardResult:
