@@ -6,7 +6,9 @@ Columns (names as in the fitted coefficients):
 - ``tuesday`` ... ``sunday``: day-of-week indicators, Monday is the baseline (6 columns).
 - ``annual_sin_k``, ``annual_cos_k`` (k = 1..K): ``sin(2 pi k d / 365.25)`` and ``cos(...)``
   where ``d`` is the number of days since ``origin``; the annual cycle as K Fourier pairs.
-- ``trend``: days since ``trend_origin`` (a linear trend, units: days); the history's middle
+- ``trend``: years (of 365.25 days) since ``trend_origin`` (a linear trend; in years, not
+  days, so that its column is of the size of the others and the normal equations stay well
+  conditioned: the coefficient is admissions per day per year); the history's middle
   day for a forecast (:func:`terms_for_history`), so that the constant is the level there and
   the trend coefficient's sampling error is nearly uncorrelated with it (each path draws that
   coefficient alone: :mod:`planner.forecast.level_uncertainty`).
@@ -93,7 +95,8 @@ class DeterministicTerms:
             columns += [np.sin(angle), np.cos(angle)]
         if self.trend:
             start = self.origin if self.trend_origin is None else self.trend_origin
-            columns.append(((dates - start.normalize()) / pd.Timedelta(days=1)).to_numpy(float))
+            days_since = ((dates - start.normalize()) / pd.Timedelta(days=1)).to_numpy(float)
+            columns.append(days_since / ANNUAL_PERIOD_DAYS)
         if self.holiday_dates or self.holiday_country:
             columns.append(self._holiday_indicator(dates))
         columns += [(dates >= day.normalize()).astype(float) for day in self.level_changes]
