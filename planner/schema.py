@@ -286,7 +286,15 @@ TABLES = (
                 "Annual cycle (Fourier terms); auto = on when the history covers 2 years or more.",
             ),
             Key("fourier_pairs", "int", 3, "Sine/cosine pairs for the annual cycle.", minimum=1),
-            Key("trend", "bool", False, "Linear time trend."),
+            Key(
+                "trend",
+                "auto_bool",
+                "auto",
+                "Linear time trend; auto = when it lowers the information criterion "
+                "(criterion) of the one-step model, all orders compared with and without it "
+                "on one common sample. Each path draws the trend's coefficient from its "
+                "sampling distribution, so its uncertainty widens the later weeks.",
+            ),
             Key("holidays", "dates", [], "Public holidays (past and future) as dates."),
             Key(
                 "holiday_country",
@@ -302,6 +310,19 @@ TABLES = (
                 "Residuals resampled for the paths: fit "
                 "residuals, or out-of-sample errors from the backtest.",
                 choices=("in_sample", "backtest"),
+            ),
+            Key(
+                "spread",
+                "str",
+                "auto",
+                "How the paths' day-to-day spread is set: level = resampled residuals "
+                "divided by the square root of their fitted level and multiplied by that of "
+                "the path's day (variance proportional to the level, as for counts: a quiet "
+                "weekend, or the years before a rise, spread less); constant = one spread for "
+                "every day; auto = the one whose one-step predictive quantiles score the lower "
+                "pinball loss on the backtest's days (ties, or no backtest run: level). Point "
+                "forecasts and means are the same either way.",
+                choices=("auto", "level", "constant"),
             ),
             Key(
                 "refit",

@@ -83,7 +83,7 @@ def test_the_forecast_is_the_same_with_and_without_the_cache(history, tmp_path):
 def key(history, settings=QUICK, horizon=HORIZON, n_paths=100, rng=None):
     """The key run_backtest looks up for these arguments."""
     dates = pd.DatetimeIndex(history.index)
-    terms = terms_for_history(settings, dates)
+    terms = terms_for_history(settings, dates, history.to_numpy(float))
     inputs = BacktestInputs.build(
         history.to_numpy(float), dates, terms, horizon, observed_columns(terms, dates)
     )

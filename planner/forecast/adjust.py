@@ -2,7 +2,7 @@
 
 Every forecast day is multiplied by ``1 + growth``; a surge multiplies the days from its
 ``start`` to its ``end`` (inclusive) by its ``factor``, on top of growth and of other surges that
-overlap. Applied before clipping and rounding, so the adjusted counts keep the adjusted mean.
+overlap. Applied before clipping and rounding, so the counts follow the adjusted mean.
 The limits (growth > -1, factor > 0) are those of the scenario's keys, checked when it is read.
 """
 

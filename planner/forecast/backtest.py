@@ -31,19 +31,20 @@ fill them from other origins: :func:`planner.forecast.bootstrap.direct_paths`).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import pandas as pd
 
 from planner.errors import PlannerError
 from planner.forecast import metrics
-from planner.forecast.ar import design
+from planner.forecast.ar import ArFit, design
 from planner.forecast.bootstrap import to_counts
 from planner.forecast.deterministic import step_columns
-from planner.forecast.paths import STRATEGIES, SeriesDesign, model_paths
+from planner.forecast.paths import STRATEGIES, SeriesDesign, model_paths, one_step_fit
 from planner.forecast.requirements import origin_days
 from planner.forecast.result import QUANTILE_LEVELS, BacktestResult
+from planner.forecast.spread import chosen_spread, one_step_pinball
 
 SCORED_LEVELS = (0.025,) + QUANTILE_LEVELS + (0.975,)
 COLUMNS = [
@@ -118,46 +119,51 @@ def backtest_inputs(
     inputs: BacktestInputs, settings, n_paths: int, rng: np.random.Generator
 ) -> BacktestResult:
     """The rolling-origin backtest on ``inputs`` (:class:`BacktestInputs`: the history, its
-    calendar terms over the history and the horizon, and the horizon)."""
-    values, dates, names, horizon = inputs.values, inputs.dates, inputs.names, inputs.horizon
+    calendar terms over the history and the horizon, and the horizon). With ``spread = "auto"``
+    the one-step fits of every origin choose the spread first
+    (:func:`planner.forecast.spread.one_step_pinball`), then the paths use it."""
+    values, dates, horizon = inputs.values, inputs.dates, inputs.horizon
     n = values.shape[0]
     positions = origin_positions(n, settings, horizon)
     n_paths = backtest_path_count(n_paths, settings)
+    origins = [_OriginFit.build(inputs, origin, settings) for origin in positions]
+    one_step_errors = [fit.one_step_errors(values, settings.backtest_every) for fit in origins]
+    spread_pinball = {}
+    if settings.spread == "auto":
+        records = [
+            (
+                values[: fit.origin],
+                fit.one_step.residuals,
+                values[fit.origin : fit.origin + e.size],
+                values[fit.origin : fit.origin + e.size] - e,
+            )
+            for fit, e in zip(origins, one_step_errors, strict=True)
+        ]
+        spread_pinball = one_step_pinball(records)
+        settings = replace(settings, spread=chosen_spread(spread_pinball))
     scored = {strategy: [] for strategy in STRATEGIES}
-    one_step_errors: list[np.ndarray] = []
     direct_errors: list[np.ndarray] = []
-    for origin, origin_rng in zip(positions, rng.spawn(len(positions)), strict=True):
+    for fit, origin_rng in zip(origins, rng.spawn(len(positions)), strict=True):
+        origin = fit.origin
         training, observed = values[:origin], values[origin : origin + horizon]
         scale = metrics.mase_scale(training)
-        one_step = None
-        columns = inputs.columns_at(origin)
-        deterministic_all = inputs.deterministic
-        origin_names = names
-        if columns is not None:
-            deterministic_all = deterministic_all[:, columns]
-            origin_names = tuple(names[j] for j in columns)
         for strategy, strategy_rng in zip(STRATEGIES, origin_rng.spawn(3), strict=True):
-            path_rng, rounding_rng = strategy_rng.spawn(2)
+            path_rng = strategy_rng.spawn(2)[0]  # (the second stream drew the rounding once)
             series = SeriesDesign(
                 training,
-                deterministic_all[:origin],
-                deterministic_all[origin : origin + horizon],
-                origin_names,
+                fit.deterministic[:origin],
+                fit.deterministic[origin : origin + horizon],
+                fit.names,
             )
-            result = model_paths(strategy, series, settings, n_paths, path_rng, one_step=one_step)
-            if result.one_step is not None:  # the direct strategy reuses the recursive's fit
-                one_step = result.one_step
-            counts = to_counts(result.paths[:, : observed.shape[0]], rounding_rng)
+            result = model_paths(
+                strategy, series, settings, n_paths, path_rng, one_step=fit.one_step
+            )
+            counts = to_counts(result.paths[:, : observed.shape[0]])
             quantiles = np.quantile(counts, SCORED_LEVELS, axis=0).T
             inside = (counts >= quantiles[:, 2]) & (counts <= quantiles[:, 6])
             scored[strategy].append(
                 (observed, counts.mean(axis=0), quantiles, scale, inside.mean(axis=0))
             )
-            if strategy == "recursive":
-                end = min(origin + settings.backtest_every, n)
-                X, y = design(values[:end], result.one_step.order, deterministic_all[:end])
-                days = end - origin
-                one_step_errors.append(y[-days:] - X[-days:] @ result.one_step.coefficients)
             if strategy == "direct":
                 errors = np.full(horizon, np.nan)
                 errors[: observed.shape[0]] = observed - result.point[: observed.shape[0]]
@@ -172,7 +178,38 @@ def backtest_inputs(
         origins=pd.DatetimeIndex(dates[positions]),
         residuals=residuals,
         n_paths=n_paths,
+        spread=settings.spread,
+        spread_pinball=spread_pinball,
     )
+
+
+@dataclass(frozen=True)
+class _OriginFit:
+    """One origin's one-step model: fitted on the days before ``origin`` with the deterministic
+    columns ``names`` (``deterministic`` over the history and the horizon)."""
+
+    origin: int
+    names: tuple[str, ...]
+    deterministic: np.ndarray
+    one_step: ArFit
+
+    @classmethod
+    def build(cls, inputs: BacktestInputs, origin: int, settings) -> _OriginFit:
+        columns = inputs.columns_at(origin)
+        deterministic, names = inputs.deterministic, inputs.names
+        if columns is not None:
+            deterministic = deterministic[:, columns]
+            names = tuple(names[j] for j in columns)
+        design_ = SeriesDesign(inputs.values[:origin], deterministic[:origin], None, names)
+        return cls(int(origin), names, deterministic, one_step_fit(design_, settings))
+
+    def one_step_errors(self, values: np.ndarray, every: int) -> np.ndarray:
+        """Errors of the one-step model on the days from the origin to the next one (or the end
+        of the history), each predicted from the observed lags."""
+        end = min(self.origin + every, values.shape[0])
+        X, y = design(values[:end], self.one_step.order, self.deterministic[:end])
+        days = end - self.origin
+        return y[-days:] - X[-days:] @ self.one_step.coefficients
 
 
 def _score(strategy: str, records, horizon: int) -> list[tuple]:

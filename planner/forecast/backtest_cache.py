@@ -5,7 +5,7 @@ An entry is keyed by a SHA-256 digest of everything the backtest reads
 (:func:`backtest_key`): the admissions history's values and dates (its content, not the
 file's path), the deterministic columns over the history and the horizon (so the calendar
 terms, holidays, trend and level changes' steps are in it), the settings the backtest uses
-(``max_lag``, ``min_lag``, ``criterion``, ``order``, ``refit``, ``refit_series``,
+(``max_lag``, ``min_lag``, ``criterion``, ``order``, ``refit``, ``refit_series``, ``spread``,
 ``backtest_origins``, ``backtest_every``, the paths per origin), the horizon, the random
 stream it draws from (the generator's ``SeedSequence``: entropy, spawn key, children already
 spawned) and the code: the entry format's :data:`CACHE_VERSION`, a digest of the forecast
@@ -37,7 +37,7 @@ from planner.forecast.result import BacktestResult
 
 #: Raise when the entry format or the backtest's results change in a way the source digest
 #: would not see (e.g. a dependency's behaviour).
-CACHE_VERSION = 1
+CACHE_VERSION = 2
 ENVIRONMENT_VARIABLE = "PLANNER_CACHE"
 MOST_ENTRIES = 256
 _PREFIX = "backtest-"
@@ -111,6 +111,7 @@ def backtest_key(
         settings.order,
         bool(settings.refit),
         settings.refit_series,
+        settings.spread,
         settings.backtest_origins,
         settings.backtest_every,
         backtest_path_count(n_paths, settings),
@@ -168,6 +169,13 @@ def load(folder: Path, key: str) -> BacktestResult | None:
                 },
                 n_paths=int(entry["n_paths"]),
                 from_cache=True,
+                spread=str(entry["spread"]),
+                spread_pinball={
+                    str(name): float(loss)
+                    for name, loss in zip(
+                        entry["spread_names"], entry["spread_pinball"], strict=True
+                    )
+                },
             )
         os.utime(path)  # recently used: kept longest
     except Exception:  # any damage to an entry means: recompute it
@@ -185,6 +193,9 @@ def store(folder: Path, key: str, result: BacktestResult) -> None:
         "residuals_recursive": result.residuals["recursive"],
         "residuals_direct": result.residuals["direct"],
         "n_paths": np.array(result.n_paths),
+        "spread": np.array(result.spread),
+        "spread_names": np.array(list(result.spread_pinball), dtype=str),
+        "spread_pinball": np.array(list(result.spread_pinball.values()), dtype=float),
     }
     for column in result.table.columns:
         values = result.table[column].to_numpy()

@@ -6,7 +6,12 @@ Columns (names as in the fitted coefficients):
 - ``tuesday`` ... ``sunday``: day-of-week indicators, Monday is the baseline (6 columns).
 - ``annual_sin_k``, ``annual_cos_k`` (k = 1..K): ``sin(2 pi k d / 365.25)`` and ``cos(...)``
   where ``d`` is the number of days since ``origin``; the annual cycle as K Fourier pairs.
-- ``trend``: days since ``origin`` (a linear trend, units: days).
+- ``trend``: years (of 365.25 days) since ``trend_origin`` (a linear trend; in years, not
+  days, so that its column is of the size of the others and the normal equations stay well
+  conditioned: the coefficient is admissions per day per year); the history's middle
+  day for a forecast (:func:`terms_for_history`), so that the constant is the level there and
+  the trend coefficient's sampling error is nearly uncorrelated with it (each path draws that
+  coefficient alone: :mod:`planner.forecast.level_uncertainty`).
 - ``holiday``: 1 on public holidays (given dates, or a country's holidays through the
   ``holidays`` package, imported only when asked for), else 0.
 - ``level_change_YYYY-MM-DD``: a step, 0 before that date and 1 from it, one per declared
@@ -20,13 +25,14 @@ same row.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from datetime import date
 
 import numpy as np
 import pandas as pd
 
 from planner.errors import PlannerError
+from planner.forecast.ar import select_order
 
 ANNUAL_PERIOD_DAYS = 365.25
 #: Name of a level change's step column: this prefix and the ISO date of its first day.
@@ -38,7 +44,8 @@ WEEKDAY_NAMES = ("tuesday", "wednesday", "thursday", "friday", "saturday", "sund
 class DeterministicTerms:
     """Which deterministic columns the model uses.
 
-    ``origin`` is day 0 of the trend and of the Fourier terms.
+    ``origin`` is day 0 of the Fourier terms, and of the trend unless ``trend_origin`` is
+    given.
     """
 
     origin: pd.Timestamp
@@ -49,6 +56,7 @@ class DeterministicTerms:
     holiday_dates: tuple[date, ...] = ()
     holiday_country: str | None = None
     level_changes: tuple[pd.Timestamp, ...] = ()
+    trend_origin: pd.Timestamp | None = None
 
     @property
     def names(self) -> tuple[str, ...]:
@@ -86,7 +94,9 @@ class DeterministicTerms:
             angle = 2.0 * np.pi * k * days / ANNUAL_PERIOD_DAYS
             columns += [np.sin(angle), np.cos(angle)]
         if self.trend:
-            columns.append(days)
+            start = self.origin if self.trend_origin is None else self.trend_origin
+            days_since = ((dates - start.normalize()) / pd.Timedelta(days=1)).to_numpy(float)
+            columns.append(days_since / ANNUAL_PERIOD_DAYS)
         if self.holiday_dates or self.holiday_country:
             columns.append(self._holiday_indicator(dates))
         columns += [(dates >= day.normalize()).astype(float) for day in self.level_changes]
@@ -117,10 +127,19 @@ def step_columns(names) -> list[int]:
     return [i for i, name in enumerate(names or ()) if name.startswith(STEP_PREFIX)]
 
 
-def terms_for_history(settings, dates: pd.DatetimeIndex) -> DeterministicTerms:
+def drawn_columns(names) -> list[int]:
+    """Positions of the columns whose coefficients each path draws from their sampling
+    distribution: the trend and the level changes' steps."""
+    names = tuple(names or ())
+    return sorted(step_columns(names) + [i for i, name in enumerate(names) if name == "trend"])
+
+
+def terms_for_history(settings, dates: pd.DatetimeIndex, values=None) -> DeterministicTerms:
     """Resolve ``settings`` (ForecastSettings) against the history's dates: ``annual="auto"``
     switches the Fourier terms on with at least two years (730 days) of history; a step column
-    for each level change dated after the first day and on or before the last."""
+    for each level change dated after the first day and on or before the last; the trend
+    centred on the history's middle day, and with ``trend="auto"`` only when the admissions
+    ``values`` choose it (:func:`trend_chosen`; without ``values``, left out)."""
     annual = settings.annual
     if annual == "auto":
         annual = len(dates) >= 730
@@ -130,13 +149,36 @@ def terms_for_history(settings, dates: pd.DatetimeIndex) -> DeterministicTerms:
         for change in settings.level_changes
         if first < pd.Timestamp(change.date) <= last
     )
-    return DeterministicTerms(
+    terms = DeterministicTerms(
         origin=pd.Timestamp(dates[0]),
         constant=True,
         weekday=bool(settings.weekday),
         fourier_pairs=int(settings.fourier_pairs) if annual else 0,
-        trend=bool(settings.trend),
+        trend=settings.trend is True,
         holiday_dates=tuple(settings.holiday_dates),
         holiday_country=settings.holiday_country,
         level_changes=tuple(steps),
+        trend_origin=pd.Timestamp(dates[len(dates) // 2]),
     )
+    if settings.trend == "auto" and values is not None:
+        return replace(terms, trend=trend_chosen(values, dates, terms, settings))
+    return terms
+
+
+def trend_chosen(values, dates: pd.DatetimeIndex, terms: DeterministicTerms, settings) -> bool:
+    """Whether a linear trend lowers the information criterion (``settings.criterion``) of the
+    one-step model: the orders ``min_lag .. max_lag`` (or the fixed order) are compared with
+    and without the trend column on ONE common sample, the rows after ``max_lag`` (as the
+    order choice does, :func:`planner.forecast.ar.select_order`), and the best of each is
+    taken. Columns that are zero on every day (a holiday list outside the history) are left
+    out of both."""
+    without = replace(terms, trend=False).in_sample(dates)
+    without = without.loc[:, without.abs().sum() > 0].to_numpy()
+    with_trend = replace(terms, trend=True).in_sample(dates)["trend"].to_numpy()
+    lag = settings.max_lag if settings.order is None else settings.order
+    low = settings.min_lag if settings.order is None else settings.order
+    best = []
+    for deterministic in (without, np.column_stack([without, with_trend])):
+        table = select_order(values, lag, deterministic, settings.criterion, low).table
+        best.append(float(table[settings.criterion].min()))
+    return best[1] < best[0]

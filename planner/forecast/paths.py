@@ -14,14 +14,16 @@ import numpy as np
 
 from planner.forecast.ar import ArFit, fit_selected
 from planner.forecast.bootstrap import (
+    ShockPools,
     centred,
     direct_paths,
     recursive_paths,
     refit_recursive_paths,
 )
-from planner.forecast.deterministic import step_columns
+from planner.forecast.deterministic import drawn_columns
 from planner.forecast.level_uncertainty import direct_step_shifts, drawn_deterministic
 from planner.forecast.naive import seasonal_naive_errors, seasonal_naive_point
+from planner.forecast.spread import error_paths_on_scale, pool_on_scale
 from planner.forecast.strategies import direct_point, fit_direct, recursive_point
 
 #: Every strategy here, each scored by the backtest: the two the forecast can use and the
@@ -52,6 +54,33 @@ class SeriesDesign:
     names: tuple[str, ...] | None = None
 
 
+@dataclass(frozen=True)
+class BacktestErrors:
+    """Out-of-sample errors (admissions) resampled instead of the in-sample residuals:
+    ``one_step``, the one-step errors of the last days of the values (the recursive model's
+    shocks); ``paths``, the direct strategy's error paths (origins x H, NaN on days an origin
+    did not observe, see :func:`planner.forecast.bootstrap.direct_paths`); ``first_days``, the
+    position in the values of each error path's first day (for their fitted levels)."""
+
+    one_step: np.ndarray
+    paths: np.ndarray
+    first_days: np.ndarray
+
+
+def one_step_fit(design: SeriesDesign, settings) -> ArFit:
+    """The one-step model of the design's values: order chosen (unless fixed), then fitted."""
+    return fit_selected(
+        design.values,
+        settings.max_lag,
+        design.deterministic,
+        design.names,
+        settings.criterion,
+        settings.order,
+        engine="numpy",
+        min_lag=settings.min_lag,
+    )
+
+
 def model_paths(
     strategy: str,
     design: SeriesDesign,
@@ -60,20 +89,22 @@ def model_paths(
     rng: np.random.Generator,
     *,
     one_step: ArFit | None = None,
-    residual_pool: np.ndarray | None = None,
-    error_paths: np.ndarray | None = None,
+    errors: BacktestErrors | None = None,
 ) -> StrategyPaths:
     """Fit ``strategy`` on the design's values and simulate ``n_paths`` paths over the
     ``H = len(design.future)`` following days.
 
     ``one_step``: the one-step model already fitted on these values with these settings (the
-    backtest fits it once per origin for both strategies). ``residual_pool`` replaces the
-    recursive model's in-sample residuals and ``error_paths`` the direct model's aligned
-    residual paths (used for ``residuals="backtest"``; days an error path did not observe are
-    NaN, see :func:`planner.forecast.bootstrap.direct_paths`).
+    backtest fits it once per origin for both strategies). ``errors``
+    (:class:`BacktestErrors`, for ``residuals="backtest"``) replace the in-sample residuals.
 
-    Level changes' step columns (named in ``design.names``) have their coefficient drawn per
-    path (:mod:`planner.forecast.level_uncertainty`); without them no extra numbers are drawn.
+    ``settings.spread`` "level" standardises the residuals by their fitted levels and scales
+    the shocks by each path's level (:mod:`planner.forecast.spread`); the seasonal naive
+    benchmark keeps one spread.
+
+    Level changes' step columns and the trend (named in ``design.names``) have their
+    coefficients drawn per path (:mod:`planner.forecast.level_uncertainty`); without them no
+    extra numbers are drawn.
     """
     values, deterministic, names = design.values, design.deterministic, design.names
     future_deterministic = design.future
@@ -83,20 +114,16 @@ def model_paths(
         paths = direct_paths(point, seasonal_naive_errors(values, horizon), n_paths, rng)
         return StrategyPaths(strategy, paths, point, None)
     if one_step is None:
-        one_step = fit_selected(
-            values,
-            settings.max_lag,
-            deterministic,
-            names,
-            settings.criterion,
-            settings.order,
-            engine="numpy",
-            min_lag=settings.min_lag,
-        )
-    steps = step_columns(names)
+        one_step = one_step_fit(design, settings)
+    steps = drawn_columns(names)  # level steps and the trend
+    scaled = settings.spread == "level"
+    fit_pool = pool_on_scale(values, one_step.residuals, settings.spread)
+    pool = fit_pool
+    if errors is not None:
+        pool = pool_on_scale(values, errors.one_step, settings.spread)
     if strategy == "recursive":
         point = recursive_point(one_step, values, future_deterministic)
-        if settings.refit:  # the refits carry a level step's uncertainty already
+        if settings.refit:  # the refits carry the steps' and trend's uncertainty already
             paths = refit_recursive_paths(
                 one_step,
                 values,
@@ -105,7 +132,7 @@ def model_paths(
                 n_paths,
                 settings.refit_series,
                 rng,
-                residual_pool,
+                ShockPools(fit_pool, pool, scaled),
             )
         else:
             drawn = (
@@ -114,13 +141,18 @@ def model_paths(
                 else None
             )
             paths = recursive_paths(
-                one_step, values, future_deterministic, n_paths, rng, residual_pool, drawn
+                one_step, values, future_deterministic, n_paths, rng, pool, drawn, scaled
             )
         return StrategyPaths(strategy, paths, point, one_step)
     direct = fit_direct(values, one_step.order, horizon, deterministic)
     point = direct_point(direct, values, future_deterministic)
-    errors = centred(direct.aligned_residuals() if error_paths is None else error_paths)
-    paths = direct_paths(point, errors, n_paths, rng)
+    if errors is None:
+        error_paths = direct.aligned_residuals()
+        first_days = direct.order + np.arange(error_paths.shape[0])
+    else:
+        error_paths, first_days = errors.paths, errors.first_days
+    error_paths = error_paths_on_scale(values, error_paths, first_days, settings.spread)
+    paths = direct_paths(point, centred(error_paths), n_paths, rng, scaled)
     if steps:
         future = future_deterministic
         paths += direct_step_shifts(direct, values, deterministic, future, steps, n_paths, rng)

@@ -1,9 +1,10 @@
 """The forecast engine's two entry points: :func:`forecast_admissions` and :func:`run_backtest`.
 
 Data flow: validated history -> deterministic terms (with a step per level change inside the
-history) -> (backtest, when the strategy is "auto" or residuals are "backtest") -> fit and
+history) -> (backtest, when the strategy is "auto" or residuals are "backtest"; it chooses
+an "auto" spread, which is "level" without a backtest: :mod:`planner.forecast.spread`) -> fit and
 bootstrap paths for the chosen strategy -> announced level changes -> demand adjustments ->
-clip and stochastic rounding -> :class:`ForecastResult`, with the drift alarm
+clip and round to whole admissions -> :class:`ForecastResult`, with the drift alarm
 (:mod:`planner.forecast.drift`) on the last weeks' one-step errors.
 
 With ``residuals = "backtest"`` the direct strategy needs at least
@@ -11,8 +12,8 @@ With ``residuals = "backtest"`` the direct strategy needs at least
 origin): a scenario asking for the direct strategy is refused when it is read, one with
 "auto" when the backtest chooses the direct strategy.
 
-Randomness: ``rng`` is split with ``Generator.spawn`` into independent streams for the backtest,
-the paths and the rounding, so the same seed gives the same result.
+Randomness: ``rng`` is split with ``Generator.spawn`` into independent streams for the backtest
+and the paths, so the same seed gives the same result.
 
 ``cache``: a folder of the backtest cache (:mod:`planner.forecast.backtest_cache`), or None to
 compute the backtest every time; the result is the same either way.
@@ -24,6 +25,7 @@ come from the scenario and the command line, which both refuse values below 1.
 
 from __future__ import annotations
 
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -38,7 +40,7 @@ from planner.forecast.deterministic import terms_for_history
 from planner.forecast.drift import watched_drift
 from planner.forecast.level_change import announced_changes, level_multipliers
 from planner.forecast.level_uncertainty import level_estimates
-from planner.forecast.paths import SeriesDesign, model_paths
+from planner.forecast.paths import BacktestErrors, SeriesDesign, model_paths
 from planner.forecast.result import BacktestResult, ForecastResult, ForecastSummary
 from planner.forecast.settings import LEAST_ERROR_PATHS
 
@@ -58,7 +60,7 @@ def run_backtest(
     is the very backtest :func:`forecast_admissions` runs to choose the "auto" strategy."""
     dates = pd.DatetimeIndex(history.index)
     announced_changes(settings, dates, horizon)  # refuses level changes the history cannot take
-    terms = terms_for_history(settings, dates)
+    terms = terms_for_history(settings, dates, history.to_numpy(dtype=float))
     keep = tuple(observed_columns(terms, dates))
     backtest_rng = rng.spawn(3)[0]
     inputs = BacktestInputs.build(history.to_numpy(dtype=float), dates, terms, horizon, keep)
@@ -93,12 +95,12 @@ def forecast_admissions(
         raise PlannerError(f"start: {start.date()} is before the day after the history ends")
     total = gap + horizon
     announced = announced_changes(settings, dates, total)
-    terms = terms_for_history(settings, dates)
+    terms = terms_for_history(settings, dates, values)
     keep = list(observed_columns(terms, dates))
     future_dates = pd.date_range(first_day, periods=total, freq="D")
     deterministic = terms.in_sample(dates)[keep].to_numpy()
     future_deterministic = terms.out_of_sample(future_dates)[keep].to_numpy()
-    backtest_rng, path_rng, rounding_rng = rng.spawn(3)
+    backtest_rng, path_rng, _ = rng.spawn(3)  # (the third stream drew the rounding once)
 
     backtest = None
     strategy = settings.strategy
@@ -110,11 +112,17 @@ def forecast_admissions(
         pinball = backtest.overall()["pinball"].to_dict()
     if strategy == "auto":
         strategy = "recursive" if pinball["recursive"] <= pinball["direct"] else "direct"
+    if settings.spread == "auto":  # chosen by the backtest when one is run, else "level"
+        settings = replace(settings, spread="level" if backtest is None else backtest.spread)
 
-    residual_pool = error_paths = None
+    errors = None
     if settings.residuals == "backtest":
-        residual_pool = backtest.residuals["recursive"]
-        error_paths = backtest.residuals["direct"]
+        errors = BacktestErrors(
+            backtest.residuals["recursive"],
+            backtest.residuals["direct"],
+            dates.get_indexer(backtest.origins),
+        )
+        error_paths = errors.paths
         if strategy == "direct" and error_paths.shape[0] < LEAST_ERROR_PATHS:
             raise PlannerError(
                 f'forecast.residuals: "backtest" with the direct strategy needs at least '
@@ -128,14 +136,13 @@ def forecast_admissions(
         settings,
         n_paths,
         path_rng,
-        residual_pool=residual_pool,
-        error_paths=error_paths,
+        errors=errors,
     )
     paths = result.paths
     if announced:
         paths = paths * level_multipliers(future_dates, announced)[None, :]
     adjusted = adjust_paths(paths[:, gap:], future_dates[gap:], settings.demand)
-    counts = to_counts(adjusted, rounding_rng)
+    counts = to_counts(adjusted)
     fit = result.one_step
     summary = ForecastSummary(
         strategy=strategy,
@@ -153,6 +160,8 @@ def forecast_admissions(
         drift=watched_drift(fit, backtest, dates, terms.level_changes),
         level_changes=level_estimates(fit, values, deterministic, tuple(keep)),
         announced_changes=announced,
+        spread=settings.spread,
+        trend="trend" in keep,
     )
     return ForecastResult(
         dates=future_dates[gap:],

@@ -32,7 +32,8 @@ def fit_lag(settings) -> tuple[int, str]:
 def fit_days(settings, forecast_days: int, history_days: int, direct: bool) -> tuple[int, str]:
     """Days a one-step fit (or, with ``direct``, a fit for every horizon day up to
     ``forecast_days``) needs: 2 x lag + k + 14 (+ forecast days), lag the fixed order or
-    max_lag, k the calendar columns."""
+    max_lag, k the calendar columns (a trend counted when it is asked for; one that
+    ``trend = "auto"`` may choose fits within the spare days)."""
     lag, name = fit_lag(settings)
     annual = settings.annual is True or (
         settings.annual == "auto" and history_days >= ANNUAL_AUTO_DAYS
@@ -40,7 +41,7 @@ def fit_days(settings, forecast_days: int, history_days: int, direct: bool) -> t
     holiday = bool(settings.holiday_dates or settings.holiday_country)
     columns = (
         1 + 6 * bool(settings.weekday) + 2 * settings.fourier_pairs * annual
-        + bool(settings.trend) + holiday
+        + (settings.trend is True) + holiday
     )  # fmt: skip
     days = 2 * lag + columns + FIT_SPARE_DAYS
     reason = f"2 x {name} {lag} + {columns} calendar terms + {FIT_SPARE_DAYS} spare"

@@ -31,13 +31,18 @@ class BacktestResult:
     errors on every day of the backtest window; ``"direct"``: ``(origins, H)`` error paths of
     every origin, NaN on the days past the end of the history. ``from_cache``: True when this
     result was read from the backtest cache (:mod:`planner.forecast.backtest_cache`) rather
-    than computed in this process; the numbers are the same either way."""
+    than computed in this process; the numbers are the same either way. ``spread``: the spread
+    the backtest's paths used (``forecast.spread``, or the one "auto" chose), and
+    ``spread_pinball`` the one-step pinball losses "auto" chose it by (empty otherwise,
+    :func:`planner.forecast.spread.one_step_pinball`)."""
 
     table: pd.DataFrame
     origins: pd.DatetimeIndex
     residuals: dict[str, np.ndarray]
     n_paths: int
     from_cache: bool = False
+    spread: str = "level"
+    spread_pinball: dict[str, float] = field(default_factory=dict)
 
     def overall(self) -> pd.DataFrame:
         """The ``horizon_week == 0`` rows, indexed by strategy."""
@@ -61,7 +66,9 @@ class ForecastSummary:
     the drift alarm (:class:`planner.forecast.drift.DriftAlarm`) or None when it did not
     signal; ``level_changes``: the changes estimated inside the history;
     ``announced_changes``: the changes after it applied to the paths
-    (:class:`planner.forecast.settings.LevelChange`)."""
+    (:class:`planner.forecast.settings.LevelChange`); ``spread``: the spread of the paths
+    ("level" or "constant", as set or as "auto" chose it); ``trend``: whether the model has a
+    linear trend (as set or as "auto" chose it)."""
 
     strategy: str
     order: int
@@ -78,6 +85,8 @@ class ForecastSummary:
     drift: DriftAlarm | None = None
     level_changes: tuple[LevelEstimate, ...] = ()
     announced_changes: tuple = ()
+    spread: str = "level"
+    trend: bool = False
 
 
 @dataclass(frozen=True)

@@ -55,8 +55,13 @@ class ForecastSettings:
     order: a fixed AR order instead of choosing one (None = choose; 0 = calendar terms only).
     weekday: day-of-week dummies. annual: annual Fourier terms ("auto" = on with >= 2 years
         of history). fourier_pairs: number of sine/cosine pairs for the annual cycle.
-    trend: a linear time trend. holiday_dates / holiday_country: public-holiday indicator.
+    trend: a linear time trend (true, false or "auto": when it lowers the information
+        criterion on the common sample; its coefficient is drawn per path).
+    holiday_dates / holiday_country: public-holiday indicator.
     residuals: "in_sample" or "backtest" (out-of-sample residuals for the bootstrap).
+    spread: "level" (resampled residuals scaled by the square root of the fitted level, so the
+        spread follows the level: :mod:`planner.forecast.spread`), "constant" or "auto" (the
+        one the backtest's one-step errors score better).
     refit: refit the recursive model on each bootstrap series (parameter uncertainty);
         refit_series: number of those series (path i uses refit i mod refit_series).
     backtest_origins / backtest_every: rolling-origin backtest, number of origins and days
@@ -76,10 +81,11 @@ class ForecastSettings:
     weekday: bool = default("forecast.weekday")
     annual: bool | str = default("forecast.annual")
     fourier_pairs: int = default("forecast.fourier_pairs")
-    trend: bool = default("forecast.trend")
+    trend: bool | str = default("forecast.trend")
     holiday_dates: tuple[date, ...] = default("forecast.holidays")
     holiday_country: str | None = default("forecast.holiday_country")
     residuals: str = default("forecast.residuals")
+    spread: str = default("forecast.spread")
     refit: bool = default("forecast.refit")
     refit_series: int = default("forecast.refit_series")
     backtest_origins: int = default("forecast.backtest_origins")

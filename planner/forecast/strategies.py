@@ -19,6 +19,7 @@ import numpy as np
 from planner.errors import PlannerError
 from planner.forecast.ar import ArFit
 from planner.forecast.direct_fit import direct_regressions
+from planner.forecast.spread import level_scale
 
 
 @dataclass(frozen=True)
@@ -51,13 +52,16 @@ def simulate_recursive(
     last_values: np.ndarray,
     future_deterministic: np.ndarray,
     shocks: np.ndarray,
+    scaled: bool = False,
 ) -> np.ndarray:
     """Iterate the one-step model over the horizon for many paths at once.
 
     ``lag_coefficients``: ``(p,)`` or ``(paths, p)``; ``deterministic_coefficients``: ``(k,)`` or
     ``(paths, k)``; ``last_values``: the last ``p`` observed days, oldest first;
     ``future_deterministic``: ``(H, k)`` regressors of the forecast days; ``shocks``:
-    ``(paths, H)`` errors added on each day before the value is fed back.
+    ``(paths, H)`` errors added on each day before the value is fed back; with ``scaled``
+    they are standardised residuals, multiplied by the square root of the path's expected
+    value of the day (:func:`planner.forecast.spread.level_scale`) before they are added.
     Returns ``(paths, H)`` admissions per day (continuous scale).
     """
     shocks = np.asarray(shocks, dtype=float)
@@ -76,7 +80,9 @@ def simulate_recursive(
     for day in range(horizon):
         window = buffer[:, day : day + order]
         autoregressive = np.einsum("ij,ij->i", window, reversed_coefficients) if order else 0.0
-        buffer[:, order + day] = level[:, day] + autoregressive + shocks[:, day]
+        expected = level[:, day] + autoregressive
+        shock = shocks[:, day] * level_scale(expected) if scaled else shocks[:, day]
+        buffer[:, order + day] = expected + shock
     return buffer[:, order:]
 
 
