@@ -18,10 +18,16 @@ DEMO = Path(__file__).resolve().parents[1] / "scenarios"
 
 
 def _plan(folder: Path, extra: str = "") -> Path:
+    """The demo's baseline without its [sizing] table (so the first screen points to
+    `planner size`), four weeks, ``extra`` tables added."""
+    text = (DEMO / "baseline.toml").read_text()
+    start = text.index("[sizing]")
+    text = text[:start] + text[text.index("[costs]", start) :]
+    unsized = folder / "unsized.toml"
+    unsized.write_text(text.replace('episodes = "data/', f'episodes = "{DEMO / "data"}/'))
     path = folder / "ward.toml"
     path.write_text(
-        f'extends = "{DEMO / "baseline.toml"}"\nhorizon_weeks = 4\n[forecast]\n'
-        f'strategy = "recursive"\n{extra}'
+        f'extends = "{unsized}"\nhorizon_weeks = 4\n[forecast]\nstrategy = "recursive"\n{extra}'
     )
     return path
 

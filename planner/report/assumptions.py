@@ -41,6 +41,21 @@ NO_DRIFT = (
     "No drift signalled: the CUSUM of the last 13 weeks of one-step errors (k = 0.5, h = 5 "
     "standard deviations) stayed inside its limits in both directions."
 )
+#: What the level-change and drift features do, in two sentences each.
+LEVEL_CHANGE_NOTE = (
+    "If you know the date demand changed (a new unit, a changed catchment), declare it under "
+    "[[forecast.level_change]]: the forecast then learns the new level from the days since "
+    "that date instead of averaging it with the years before, and the uncertainty of that "
+    "estimate widens the bands. A change still to come is applied from its date with the size "
+    "you give (relative_change, e.g. 0.25 for +25%)."
+)
+DRIFT_NOTE = (
+    "The drift alarm watches the last 13 weeks of one-day-ahead errors and warns when "
+    "admissions have run persistently above or below the model, naming the direction and the "
+    "day the run began. It only warns and never changes the forecast; about one history in "
+    "six alarms by chance, so check whether demand really changed and, if so, declare a level "
+    "change from that date."
+)
 
 
 def _level_changes(summary) -> list[tuple[str, str]]:
@@ -107,10 +122,13 @@ def assumptions(run: RunResult, hindcast: HindcastQuote | None = None) -> list[t
             f"AR({summary.order}) with calendar terms, order by "
             f"{summary.criterion.upper()}, {summary.strategy} strategy, "
             f"{summary.residuals.replace('_', '-')} residual bootstrap, "
-            f"{run.paths} paths",
+            f"{'a linear trend' if summary.trend else 'no trend'} (forecast.trend), spread "
+            f"{'following the level' if summary.spread == 'level' else 'constant'} "
+            f"(forecast.spread), {run.paths} paths",
         ),
         *_level_changes(summary),
         ("Drift check", summary.drift.message() if summary.drift else NO_DRIFT),
+        ("Level changes and drift", f"{LEVEL_CHANGE_NOTE} {DRIFT_NOTE}"),
     ]
     if summary.backtest is not None:
         overall = summary.backtest.overall()
