@@ -193,8 +193,8 @@ def discharge_at(bed_hour, u, v, tables):  # pragma: no cover - compiled
     hour = hour_table[weekday, int(v * hour_table.shape[1])]
     if hour < 0:
         return 24.0 * (day + k) + clock_time(hour_cdf, weekday, 0.0, v)
-    cdf = hour_cdf[weekday]
-    x = hour + (v - cdf[hour]) / (cdf[hour + 1] - cdf[hour])
+    low, high = hour_cdf[weekday, hour], hour_cdf[weekday, hour + 1]
+    x = hour + (v - low) / (high - low)
     return 24.0 * (day + k) + min(x, LAST_HOUR)
 
 
