@@ -10,6 +10,7 @@ import numpy as np
 import pandas as pd
 import pytest
 from click.testing import CliRunner
+from wards import demo_without_sizing
 
 from planner.cli import cli
 from planner.report.assumptions import clock
@@ -20,11 +21,7 @@ DEMO = Path(__file__).resolve().parents[1] / "scenarios"
 def _plan(folder: Path, extra: str = "") -> Path:
     """The demo's baseline without its [sizing] table (so the first screen points to
     `planner size`), four weeks, ``extra`` tables added."""
-    text = (DEMO / "baseline.toml").read_text()
-    start = text.index("[sizing]")
-    text = text[:start] + text[text.index("[costs]", start) :]
-    unsized = folder / "unsized.toml"
-    unsized.write_text(text.replace('episodes = "data/', f'episodes = "{DEMO / "data"}/'))
+    unsized = demo_without_sizing(folder)
     path = folder / "ward.toml"
     path.write_text(
         f'extends = "{unsized}"\nhorizon_weeks = 4\n[forecast]\nstrategy = "recursive"\n{extra}'

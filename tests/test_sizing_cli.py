@@ -8,6 +8,7 @@ from pathlib import Path
 import pandas as pd
 import pytest
 from click.testing import CliRunner
+from wards import demo_without_sizing
 
 from planner.cli import cli
 from planner.scenario import load_scenario
@@ -102,20 +103,9 @@ def test_run_quotes_the_sizing_answer(tmp_path):
     assert "What the ward needs" in (out / "report.html").read_text()
 
 
-def without_sizing(tmp_path: Path) -> Path:
-    """The demo's baseline written out without its [sizing] table."""
-    text = (DEMO / "baseline.toml").read_text()
-    start = text.index("[sizing]")
-    text = text[:start] + text[text.index("[costs]", start) :]
-    text = text.replace('episodes = "data/', f'episodes = "{DEMO / "data"}/')
-    path = tmp_path / "unsized.toml"
-    path.write_text(text)
-    return path
-
-
 def test_run_without_a_target_does_not_size(tmp_path):
     out = tmp_path / "run"
-    path = without_sizing(tmp_path)
+    path = demo_without_sizing(tmp_path)
     assert load_scenario(path).sizing is None
     result = CliRunner().invoke(
         cli, ["run", str(path), "--paths", "100", "--jobs", "1", "--out", str(out)]

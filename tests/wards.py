@@ -41,3 +41,17 @@ ROTA = (
     "roster = [5, 5, 5, 5, 5, 5, 5]\n[[staffing.shift]]\nname = 'night'\nstart = '19:00'\n"
     "end = '07:00'\npatients_per_nurse = 7\nroster = [3, 3, 3, 3, 3, 3, 3]\n"
 )
+
+
+def demo_without_sizing(folder):
+    """The demo's baseline scenario written into ``folder`` without its [sizing] table (its
+    data path made absolute): a run of it does not size the ward."""
+    from pathlib import Path
+
+    demo = Path(__file__).resolve().parents[1] / "scenarios"
+    text = (demo / "baseline.toml").read_text()
+    start = text.index("[sizing]")
+    text = text[:start] + text[text.index("[costs]", start) :]
+    path = Path(folder) / "unsized.toml"
+    path.write_text(text.replace('episodes = "data/', f'episodes = "{demo / "data"}/'))
+    return path
