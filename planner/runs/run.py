@@ -22,7 +22,12 @@ from planner.records.files import (
 from planner.records.frames import HistoryFrames
 from planner.records.ward_history import WardHistory
 from planner.results import RunResult, RunSummary
-from planner.runs.ward_model import discharge_timing, planned_list, ward_model
+from planner.runs.ward_model import (
+    discharge_timing,
+    emergency_history,
+    planned_list,
+    ward_model,
+)
 from planner.scenario import Scenario, load_scenario, plan_lines
 from planner.simulate.discharge_fit import describe_discharges
 from planner.simulate.model import RunOptions, WardModel, beds_open_by_day
@@ -146,15 +151,13 @@ def check_scenario(path: Path | None) -> list[str]:
         )
     for table in (history.admissions, history.episodes):
         lines += [] if table is None else list(table.attrs.get("notes", ()))
+    timing = discharge_timing(scenario, emergency_history(scenario, history))
+    lines.append(f"discharges: {describe_discharges(*timing)}")
     if scenario.planned.given:
-        emergency = history.of_method("emergency")
-        lines.append(f"discharges: {describe_discharges(*discharge_timing(scenario, emergency))}")
         lines.append(
             f"planned: {planned_list(scenario, history).describe()}; the forecast covers "
             f"emergency admissions only"
         )
-    else:
-        lines.append(f"discharges: {describe_discharges(*discharge_timing(scenario, history))}")
     return lines + plan_lines(scenario)
 
 

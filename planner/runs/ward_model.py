@@ -27,7 +27,7 @@ def ward_model(scenario: Scenario, history: WardHistory) -> WardModel:
     from planner.simulate.stay_fit import stay_distribution
 
     planned = scenario.planned.given
-    emergency = history.of_method("emergency") if planned else history
+    emergency = emergency_history(scenario, history)
     stays, observed = emergency.stays()
     admitted = None if emergency.episodes is None else emergency.episodes["admitted_at"]
     discharges, note = discharge_timing(scenario, emergency)
@@ -41,6 +41,12 @@ def ward_model(scenario: Scenario, history: WardHistory) -> WardModel:
         timing_note=note,
         planned=planned_list(scenario, history) if planned else None,
     )
+
+
+def emergency_history(scenario: Scenario, history: WardHistory) -> WardHistory:
+    """The history the emergency stays and discharges are learned from: the emergency
+    episodes alone when the scenario simulates planned patients as their own stream."""
+    return history.of_method("emergency") if scenario.planned.given else history
 
 
 def planned_list(scenario: Scenario, history: WardHistory) -> PlannedList:

@@ -26,6 +26,7 @@ tables (:class:`planner.simulate.lookup.UnitSearch`) in one read for most unifor
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -78,6 +79,13 @@ class DischargeTables:
         """The tables as the compiled draws take them."""
         return (self.survival, np.float64(self.week_stay), self.hour_cdf,
                 np.int64(self.first_weekday), self.day_table, self.hour_table)  # fmt: skip
+
+
+@functools.lru_cache(maxsize=16)
+def tables_for(timing: DischargeTiming, first_weekday: int) -> DischargeTables:
+    """The tables of ``timing`` for a simulation starting on ``first_weekday``, built once
+    for the sampling and the engines of a block (timings compare by identity)."""
+    return DischargeTables.build(timing, first_weekday)
 
 
 def _buckets(cumulative: np.ndarray) -> np.ndarray:

@@ -22,7 +22,7 @@ from __future__ import annotations
 import numpy as np
 
 from planner.simulate.compiled import compiled, compiled_inline
-from planner.simulate.discharge_times import DischargeTables, discharge_at
+from planner.simulate.discharge_times import discharge_at, tables_for
 from planner.simulate.model import WardModel, beds_open_by_day, check_arrivals
 from planner.simulate.result import WardResult, ward_result
 from planner.simulate.sampling import DrawnInputs, draw_inputs
@@ -238,7 +238,7 @@ def _tables(model: WardModel):
     keeps stays as durations as fast as before calendar discharges existed."""
     if model.discharges is None:
         return None
-    return DischargeTables.build(model.discharges, model.start.weekday()).arrays()
+    return tables_for(model.discharges, model.start.weekday()).arrays()
 
 
 def _result(model: WardModel, first_path: int, beds: np.ndarray, out) -> WardResult:

@@ -44,7 +44,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from planner.simulate.compiled import compiled
-from planner.simulate.discharge_times import DischargeTables, remaining_days
+from planner.simulate.discharge_times import remaining_days, tables_for
 from planner.simulate.lookup import UnitSearch
 
 if TYPE_CHECKING:
@@ -285,7 +285,7 @@ def _emergency_inputs(model, first_path, offsets, counts, uniforms) -> DrawnInpu
     clock_start = (starts - offsets)[:-1, None]
     inpatient_clock = clock[clock_start + np.arange(inpatients)].ravel()
     new_clock = np.delete(clock, (clock_start + np.arange(inpatients)).ravel())
-    tables = DischargeTables.build(model.discharges, model.start.weekday())
+    tables = tables_for(model.discharges, model.start.weekday())
     remaining = remaining_days(tables, elapsed, remaining_u, inpatient_clock)
     return DrawnInputs(
         first_path=first_path,

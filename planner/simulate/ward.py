@@ -38,7 +38,7 @@ from __future__ import annotations
 import numpy as np
 import simpy
 
-from planner.simulate.discharge_times import DischargeTables, discharge_at
+from planner.simulate.discharge_times import discharge_at, tables_for
 from planner.simulate.model import WardModel, beds_open_by_day, check_arrivals
 from planner.simulate.result import PATH_DAILY, WardResult, ward_result
 from planner.simulate.sampling import DrawnInputs, draw_inputs
@@ -184,7 +184,7 @@ def simulate_drawn(inputs: DrawnInputs, model: WardModel, days: int) -> WardResu
 
     tables = None
     if model.discharges is not None:
-        tables = DischargeTables.build(model.discharges, model.start.weekday()).arrays()
+        tables = tables_for(model.discharges, model.start.weekday()).arrays()
     planned = inputs.planned
     cancel = model.planned is not None and model.planned.when_full == "cancel"
     for i in range(paths):
