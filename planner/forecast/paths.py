@@ -101,7 +101,8 @@ def model_paths(
     (:class:`BacktestErrors`, for ``residuals="backtest"``) replace the in-sample residuals.
     ``rows``: a row chooser (:mod:`planner.forecast.rows`) naming the resampled residuals'
     rows (those of :func:`pool_rows`) instead of drawing them from ``rng``, which then draws
-    only the level steps' and trend's coefficients (and the refits' histories, from a child).
+    only the level steps' and trend's coefficients (the refits' histories are drawn from the
+    generator the chooser's ``split`` gives).
 
     ``settings.spread`` "level" standardises the residuals by their fitted levels and scales
     the shocks by each path's level (:mod:`planner.forecast.spread`); the seasonal naive
