@@ -16,6 +16,10 @@
   ``h``-step residuals (``h = 1 .. H``, from the H direct regressions on their common origins)
   to the direct point forecast. A path is then a realised error path of the data, with its
   day-to-day dependence, not a set of independent daily draws.
+- Rows: by default drawn uniformly from the generator ``rng``; ``rng`` may instead be a row
+  chooser (:mod:`planner.forecast.rows`) that names the rows, as when several wards' paths take
+  the same days (:mod:`planner.forecast.joint`). The refit bootstrap's rebuilt histories are
+  always drawn from a generator (the chooser's :meth:`~planner.forecast.rows.RowChooser.split`).
 
 Counts (:func:`to_counts`): paths are continuous; they are clipped at 0 admissions and rounded
 to the nearest whole number (halves to even), with no random draw. The resampled residuals are
@@ -39,6 +43,7 @@ import numpy as np
 
 from planner.errors import PlannerError
 from planner.forecast.ar import ArFit, design
+from planner.forecast.rows import RowChooser, as_rows
 from planner.forecast.spread import level_scale
 from planner.forecast.strategies import simulate_recursive
 
@@ -59,18 +64,19 @@ def recursive_paths(
     last_values,
     future_deterministic: np.ndarray,
     n_paths: int,
-    rng: np.random.Generator,
+    rng: np.random.Generator | RowChooser,
     residual_pool=None,
     deterministic_coefficients=None,
     scaled: bool = False,
 ) -> np.ndarray:
     """``(n_paths, H)`` continuous paths from the recursive model; shocks are resampled from
     ``residual_pool`` (default: the fit's in-sample residuals), centred, and scaled by the
-    level with ``scaled`` (the pool then standardised).
+    level with ``scaled`` (the pool then standardised); ``rng``: a generator or a row chooser
+    (module docstring).
     ``deterministic_coefficients``: ``(n_paths, k)`` per path instead of the fit's."""
     pool = centred(fit.residuals if residual_pool is None else residual_pool)
     horizon = future_deterministic.shape[0]
-    shocks = pool[rng.integers(0, pool.shape[0], size=(n_paths, horizon))]
+    shocks = pool[as_rows(rng).shock_rows(pool.shape[0], (n_paths, horizon))]
     if deterministic_coefficients is None:
         deterministic_coefficients = fit.deterministic_coefficients
     return simulate_recursive(
@@ -130,14 +136,15 @@ def refit_recursive_paths(
     future_deterministic: np.ndarray,
     n_paths: int,
     n_series: int,
-    rng: np.random.Generator,
+    rng: np.random.Generator | RowChooser,
     pools: ShockPools | None = None,
 ) -> np.ndarray:
     """Recursive paths with parameter uncertainty (see the module docstring); ``pools``
-    default: the fit's residuals for both, one spread."""
+    default: the fit's residuals for both, one spread; ``rng``: a generator or a row chooser
+    of the paths' shocks (the rebuilt histories drawn from its generator)."""
     if pools is None:
         pools = ShockPools(fit.residuals, fit.residuals)
-    series_rng, shock_rng = rng.spawn(2)
+    series_rng, shock_rows = as_rows(rng).split()
     histories = bootstrap_histories(
         fit, values, deterministic, n_series, series_rng, pools.fit_pool, pools.scaled
     )
@@ -148,7 +155,7 @@ def refit_recursive_paths(
     per_path = coefficients[np.arange(n_paths) % n_series]
     pool = centred(pools.pool)
     horizon = future_deterministic.shape[0]
-    shocks = pool[shock_rng.integers(0, pool.shape[0], size=(n_paths, horizon))]
+    shocks = pool[shock_rows.shock_rows(pool.shape[0], (n_paths, horizon))]
     k = fit.n_deterministic
     return simulate_recursive(
         per_path[:, k:], per_path[:, :k], values, future_deterministic, shocks, pools.scaled
@@ -159,12 +166,13 @@ def direct_paths(
     point: np.ndarray,
     error_paths: np.ndarray,
     n_paths: int,
-    rng: np.random.Generator,
+    rng: np.random.Generator | RowChooser,
     scaled: bool = False,
 ) -> np.ndarray:
     """``(n_paths, H)``: ``point`` (H,) plus one whole row of ``error_paths`` (origins x H) per
-    path, the row drawn uniformly with replacement; with ``scaled`` the rows are standardised
-    errors, multiplied by the square root of each day's point forecast.
+    path, the row drawn uniformly with replacement (or named by a row chooser ``rng``: module
+    docstring); with ``scaled`` the rows are standardised errors, multiplied by the square root
+    of each day's point forecast.
 
     A row may end in NaN: a backtest origin whose horizon ran past the end of the history
     observed only its first days. Rows are then ordered by the days they observed, most first
@@ -178,17 +186,13 @@ def direct_paths(
         raise PlannerError(
             f"horizon: error paths cover {error_paths.shape[1]} days, need {point.shape[0]}"
         )
-    errors = error_paths[rng.integers(0, error_paths.shape[0], size=n_paths)]
-    missing = np.isnan(errors)
-    if np.isnan(error_paths).any():
-        known = ~np.isnan(error_paths)
-        observed = known.sum(axis=0)  # rows observing each horizon day: the first ones
-        first_rows = np.arange(known.shape[0])[:, None] < observed[None, :]
-        if not observed.all() or not np.array_equal(known, first_rows):
-            raise PlannerError("residuals: error paths must observe every day's first rows")
-        rows = rng.integers(0, observed[None, :], size=errors.shape)
-        filled = error_paths[rows, np.arange(errors.shape[1])[None, :]]
-        errors = np.where(missing, filled, errors)
+    known = ~np.isnan(error_paths)
+    observed = known.sum(axis=0)  # rows observing each horizon day: the first ones
+    first_rows = np.arange(known.shape[0])[:, None] < observed[None, :]
+    if not observed.all() or not np.array_equal(known, first_rows):
+        raise PlannerError("residuals: error paths must observe every day's first rows")
+    rows = as_rows(rng).error_rows(known, n_paths)
+    errors = error_paths[rows, np.arange(error_paths.shape[1])[None, :]]
     if scaled:
         errors = errors * level_scale(point)[None, :]
     return point[None, :] + errors

@@ -23,6 +23,7 @@ from planner.forecast.bootstrap import (
 from planner.forecast.deterministic import drawn_columns
 from planner.forecast.level_uncertainty import direct_step_shifts, drawn_deterministic
 from planner.forecast.naive import seasonal_naive_errors, seasonal_naive_point
+from planner.forecast.rows import PoolRows, RowChooser
 from planner.forecast.spread import error_paths_on_scale, pool_on_scale
 from planner.forecast.strategies import direct_point, fit_direct, recursive_point
 
@@ -90,6 +91,7 @@ def model_paths(
     *,
     one_step: ArFit | None = None,
     errors: BacktestErrors | None = None,
+    rows: RowChooser | None = None,
 ) -> StrategyPaths:
     """Fit ``strategy`` on the design's values and simulate ``n_paths`` paths over the
     ``H = len(design.future)`` following days.
@@ -97,6 +99,10 @@ def model_paths(
     ``one_step``: the one-step model already fitted on these values with these settings (the
     backtest fits it once per origin for both strategies). ``errors``
     (:class:`BacktestErrors`, for ``residuals="backtest"``) replace the in-sample residuals.
+    ``rows``: a row chooser (:mod:`planner.forecast.rows`) naming the resampled residuals'
+    rows (those of :func:`pool_rows`) instead of drawing them from ``rng``, which then draws
+    only the level steps' and trend's coefficients (the refits' histories are drawn from the
+    generator the chooser's ``split`` gives).
 
     ``settings.spread`` "level" standardises the residuals by their fitted levels and scales
     the shocks by each path's level (:mod:`planner.forecast.spread`); the seasonal naive
@@ -116,6 +122,7 @@ def model_paths(
     if one_step is None:
         one_step = one_step_fit(design, settings)
     steps = drawn_columns(names)  # level steps and the trend
+    shocks = rng if rows is None else rows
     scaled = settings.spread == "level"
     fit_pool = pool_on_scale(values, one_step.residuals, settings.spread)
     pool = fit_pool
@@ -131,7 +138,7 @@ def model_paths(
                 future_deterministic,
                 n_paths,
                 settings.refit_series,
-                rng,
+                shocks,
                 ShockPools(fit_pool, pool, scaled),
             )
         else:
@@ -141,19 +148,44 @@ def model_paths(
                 else None
             )
             paths = recursive_paths(
-                one_step, values, future_deterministic, n_paths, rng, pool, drawn, scaled
+                one_step, values, future_deterministic, n_paths, shocks, pool, drawn, scaled
             )
         return StrategyPaths(strategy, paths, point, one_step)
     direct = fit_direct(values, one_step.order, horizon, deterministic)
     point = direct_point(direct, values, future_deterministic)
     if errors is None:
         error_paths = direct.aligned_residuals()
-        first_days = direct.order + np.arange(error_paths.shape[0])
+        first_days = in_sample_origins(values.shape[0], direct.order, horizon)
     else:
         error_paths, first_days = errors.paths, errors.first_days
     error_paths = error_paths_on_scale(values, error_paths, first_days, settings.spread)
-    paths = direct_paths(point, centred(error_paths), n_paths, rng, scaled)
+    paths = direct_paths(point, centred(error_paths), n_paths, shocks, scaled)
     if steps:
         future = future_deterministic
         paths += direct_step_shifts(direct, values, deterministic, future, steps, n_paths, rng)
     return StrategyPaths(strategy, paths, point, one_step)
+
+
+def in_sample_origins(n: int, order: int, horizon: int) -> np.ndarray:
+    """Positions in ``n`` days of values of the first forecast day of each in-sample error
+    path of the direct strategy (the rows of
+    :meth:`planner.forecast.strategies.DirectFit.aligned_residuals`)."""
+    return order + np.arange(n - order - horizon + 1)
+
+
+def pool_rows(
+    strategy: str, design: SeriesDesign, one_step: ArFit, errors: BacktestErrors | None = None
+) -> PoolRows:
+    """The rows :func:`model_paths` resamples for ``strategy`` ("recursive" or "direct") on
+    ``design`` with this one-step fit and these ``errors``, named by their days counted back
+    from the last day of the values (:class:`planner.forecast.rows.PoolRows`)."""
+    n = design.values.shape[0]
+    if strategy == "recursive":
+        size = (one_step.residuals if errors is None else errors.one_step).shape[0]
+        return PoolRows(strategy, size - np.arange(size))
+    if errors is None:
+        first_days = in_sample_origins(n, one_step.order, design.future.shape[0])
+        known = np.ones((first_days.shape[0], design.future.shape[0]), dtype=bool)
+    else:
+        first_days, known = errors.first_days, ~np.isnan(errors.paths)
+    return PoolRows(strategy, n - np.asarray(first_days), known)

@@ -15,6 +15,11 @@ origin): a scenario asking for the direct strategy is refused when it is read, o
 Randomness: ``rng`` is split with ``Generator.spawn`` into independent streams for the backtest
 and the paths, so the same seed gives the same result.
 
+Two steps, so that a forecast of several wards drawn together (:mod:`planner.forecast.joint`)
+runs the same pipeline: :func:`plan_forecast` does everything before the paths (terms,
+backtest, the strategy and spread chosen, backtest errors) and :func:`finish_forecast`
+everything after them (level changes, demand, counts, the summary).
+
 ``cache``: a folder of the backtest cache (:mod:`planner.forecast.backtest_cache`), or None to
 compute the backtest every time; the result is the same either way.
 
@@ -25,7 +30,7 @@ come from the scenario and the command line, which both refuse values below 1.
 
 from __future__ import annotations
 
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
@@ -40,7 +45,7 @@ from planner.forecast.deterministic import terms_for_history
 from planner.forecast.drift import watched_drift
 from planner.forecast.level_change import announced_changes, level_multipliers
 from planner.forecast.level_uncertainty import level_estimates
-from planner.forecast.paths import BacktestErrors, SeriesDesign, model_paths
+from planner.forecast.paths import BacktestErrors, SeriesDesign, StrategyPaths, model_paths
 from planner.forecast.result import BacktestResult, ForecastResult, ForecastSummary
 from planner.forecast.settings import LEAST_ERROR_PATHS
 
@@ -86,6 +91,45 @@ def forecast_admissions(
     """Sample paths of daily emergency admissions for ``horizon`` days from ``start`` (default:
     the day after the history ends; a later start forecasts through the gap and drops it);
     ``cache`` as in the module docstring."""
+    plan = plan_forecast(history, settings, horizon, n_paths, rng, start, cache)
+    paths = model_paths(
+        plan.strategy, plan.design, plan.settings, n_paths, plan.path_rng, errors=plan.errors
+    )
+    return finish_forecast(plan, paths)
+
+
+@dataclass(frozen=True)
+class ForecastPlan:
+    """One ward's forecast up to its paths: the ``history``, the days from its end to the start
+    (``gap``) and the forecast days after it (``future_dates``, the gap's days first), the
+    calendar ``terms`` and the ``design`` fitted, the ``strategy`` and ``settings`` (spread
+    resolved) the paths use, the ``backtest`` and its overall ``pinball`` losses, the backtest
+    ``errors`` resampled (or None), the announced level changes and the paths' generator."""
+
+    history: pd.Series
+    gap: int
+    future_dates: pd.DatetimeIndex
+    terms: object
+    design: SeriesDesign
+    strategy: str
+    settings: object
+    backtest: BacktestResult | None
+    pinball: dict
+    errors: BacktestErrors | None
+    announced: tuple
+    path_rng: np.random.Generator
+
+
+def plan_forecast(
+    history: pd.Series,
+    settings,
+    horizon: int,
+    n_paths: int,
+    rng: np.random.Generator,
+    start: pd.Timestamp | None = None,
+    cache: Path | None = None,
+) -> ForecastPlan:
+    """Everything :func:`forecast_admissions` does before the paths (same arguments)."""
     values = history.to_numpy(dtype=float)
     dates = pd.DatetimeIndex(history.index)
     first_day = dates[-1] + pd.Timedelta(days=1)
@@ -130,22 +174,37 @@ def forecast_admissions(
                 f"{error_paths.shape[0]}; give a longer history or more backtest origins "
                 f"(forecast.backtest_origins)"
             )
-    result = model_paths(
-        strategy,
-        SeriesDesign(values, deterministic, future_deterministic, tuple(keep)),
-        settings,
-        n_paths,
-        path_rng,
+    design = SeriesDesign(values, deterministic, future_deterministic, tuple(keep))
+    return ForecastPlan(
+        history=history,
+        gap=gap,
+        future_dates=future_dates,
+        terms=terms,
+        design=design,
+        strategy=strategy,
+        settings=settings,
+        backtest=backtest,
+        pinball=pinball,
         errors=errors,
+        announced=announced,
+        path_rng=path_rng,
     )
+
+
+def finish_forecast(plan: ForecastPlan, result: StrategyPaths) -> ForecastResult:
+    """From the continuous paths of ``plan`` to the forecast: announced level changes, demand
+    adjustments, counts, the days of the gap dropped, the summary."""
+    settings, gap, future_dates = plan.settings, plan.gap, plan.future_dates
+    values, deterministic, keep = plan.design.values, plan.design.deterministic, plan.design.names
+    dates = pd.DatetimeIndex(plan.history.index)
     paths = result.paths
-    if announced:
-        paths = paths * level_multipliers(future_dates, announced)[None, :]
+    if plan.announced:
+        paths = paths * level_multipliers(future_dates, plan.announced)[None, :]
     adjusted = adjust_paths(paths[:, gap:], future_dates[gap:], settings.demand)
     counts = to_counts(adjusted)
     fit = result.one_step
     summary = ForecastSummary(
-        strategy=strategy,
+        strategy=plan.strategy,
         order=fit.order if fit else 0,
         criterion=settings.criterion if settings.order is None else "fixed",
         coefficients=fit.params.to_dict() if fit else {},
@@ -155,11 +214,11 @@ def forecast_admissions(
         nobs=fit.nobs if fit else len(values),
         residuals=settings.residuals,
         refit=bool(settings.refit),
-        backtest=backtest,
-        backtest_pinball=pinball,
-        drift=watched_drift(fit, backtest, dates, terms.level_changes),
-        level_changes=level_estimates(fit, values, deterministic, tuple(keep)),
-        announced_changes=announced,
+        backtest=plan.backtest,
+        backtest_pinball=plan.pinball,
+        drift=watched_drift(fit, plan.backtest, dates, plan.terms.level_changes),
+        level_changes=level_estimates(fit, values, deterministic, keep),
+        announced_changes=plan.announced,
         spread=settings.spread,
         trend="trend" in keep,
     )
@@ -168,5 +227,5 @@ def forecast_admissions(
         paths=counts,
         mean=counts.mean(axis=0),
         summary=summary,
-        history=history.iloc[-HISTORY_TAIL_DAYS:].copy(),
+        history=plan.history.iloc[-HISTORY_TAIL_DAYS:].copy(),
     )
