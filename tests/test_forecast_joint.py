@@ -272,7 +272,7 @@ SLOW_HORIZON, SLOW_PATHS = 28, 2000
 @pytest.mark.parametrize(
     ("options", "pool_days"),
     [
-        # the backtest chooses each ward's strategy (wards may end up in two groups)
+        # the backtests choose one strategy for the wards together
         ({"strategy": "auto"}, DAYS),
         # parameter uncertainty: refits per ward, shocks shared
         ({"strategy": "recursive", "refit": True}, DAYS),
@@ -294,9 +294,9 @@ SLOW_HORIZON, SLOW_PATHS = 28, 2000
 def test_joint_paths_keep_the_correlation_with_every_option(histories, options, pool_days):
     # As the fast test, with 2,000 paths x 28 days; the reference is the history's correlation
     # over the days the pools hold, n = pool_days in its SE. Wards drawn in different groups
-    # (strategy "auto") are checked for 0 correlation, SE 1/sqrt(56,000 - 3) = 0.004.
-    # Measured (pairs 0-1, 0-2, 1-2; history over the pool's days in brackets): auto chose
-    # recursive, direct, recursive: 0.002, 0.409 (0.411), 0.003; refit 0.391 (0.399), 0.404
+    # (given different strategies) would be checked for 0 correlation, SE 1/sqrt(56,000 - 3)
+    # = 0.004. Measured (pairs 0-1, 0-2, 1-2; history over the pool's days in brackets): auto
+    # took recursive for all three: 0.396 (0.399), 0.409 (0.411), 0.310 (0.313); refit 0.391 (0.399), 0.404
     # (0.411), 0.306 (0.313); recursive with backtest errors 0.499 (0.501), 0.435 (0.449),
     # 0.376 (0.379); direct with backtest errors 0.482 (0.500), 0.440 (0.452), 0.368 (0.380).
     settings = ForecastSettings(max_lag=14, **options)
@@ -333,3 +333,22 @@ def test_each_ward_keeps_its_own_forecast_with_many_paths(histories):
             se = sd * np.sqrt(p * (1 - p) * 2 / n) / 0.1755
             gap = np.abs(np.quantile(result.paths, p, axis=0) - np.quantile(alone.paths, p, axis=0))
             assert np.all(gap <= 4 * se + 0.5), (p, gap.max())
+
+
+def test_auto_wards_take_one_strategy_so_all_are_drawn_together(histories):
+    # Alone, the backtests of these wards choose different strategies (recursive, direct,
+    # recursive: measured); together, the wards asking "auto" take the one with the lower
+    # pinball loss summed over them, and a ward given a strategy keeps it.
+    auto = ForecastSettings(max_lag=14)
+    rngs = np.random.default_rng(1).spawn(3)
+    pairs = zip(histories, rngs, strict=True)
+    alone = [forecast_admissions(h, auto, HORIZON, 200, r).summary.strategy for h, r in pairs]
+    assert len(set(alone)) > 1
+    joint = forecast_wards(histories, [auto] * 3, HORIZON, 200, np.random.default_rng(1))
+    assert len({result.summary.strategy for result in joint.results}) == 1
+    assert joint.note == ""
+    given = ForecastSettings(max_lag=14, strategy="direct")
+    mixed = forecast_wards(histories, [auto, auto, given], HORIZON, 200, np.random.default_rng(1))
+    assert mixed.results[2].summary.strategy == "direct"
+    if mixed.results[0].summary.strategy == "recursive":
+        assert "not kept" in mixed.note

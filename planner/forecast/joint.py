@@ -38,7 +38,10 @@ Not kept:
 - the correlation between the strategy groups: a recursive ward takes a past day for each
   forecast day, a direct ward one past origin for the whole path, so the two cannot share a
   draw; when wards differ in strategy, each group is drawn together and the groups
-  independently, and :attr:`JointForecast.note` says so;
+  independently, and :attr:`JointForecast.note` says so. To avoid that, the wards whose
+  strategy is "auto" take ONE strategy: the one whose backtest pinball loss, added over those
+  wards, is lower (the hospital's total error; :func:`one_strategy`); a ward given a strategy
+  keeps it;
 - each ward's own pool: it resamples only the common dates (its oldest residuals, or origins,
   are left out when another ward's pool is shorter).
 
@@ -51,7 +54,7 @@ fewer common dates than :data:`LEAST_COMMON_DAYS` (recursive) or :data:`LEAST_CO
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import reduce
 from pathlib import Path
 
@@ -118,6 +121,7 @@ def forecast_wards(
         plan_forecast(history, ward_settings, horizon, n_paths, ward_rng, start, cache)
         for history, ward_settings, ward_rng in zip(histories, settings, ward_rngs, strict=True)
     ]
+    plans = one_strategy(plans, [ward.strategy for ward in settings])
     fits = [one_step_fit(plan.design, plan.settings) for plan in plans]
     pools = [
         pool_rows(plan.strategy, plan.design, fit, plan.errors)
@@ -140,6 +144,23 @@ def forecast_wards(
         )
         results.append(finish_forecast(plan, paths))
     return JointForecast(tuple(results), _note(strategy_groups(pools)))
+
+
+def one_strategy(plans: list, asked: list[str]) -> list:
+    """``plans`` with one strategy for every ward whose ``asked`` strategy is "auto": the one
+    with the lower backtest pinball loss added over those wards (recursive on a tie). A
+    direct forecast with backtest residuals and too few error paths stays recursive."""
+    auto = [k for k, strategy in enumerate(asked) if strategy == "auto"]
+    if len({plans[k].strategy for k in auto}) < 2:
+        return plans
+    total = {name: sum(plans[k].pinball[name] for k in auto) for name in ("recursive", "direct")}
+    chosen = "recursive" if total["recursive"] <= total["direct"] else "direct"
+    if chosen == "direct" and any(
+        plans[k].errors is not None and plans[k].errors.paths.shape[0] < LEAST_ERROR_PATHS
+        for k in auto
+    ):
+        chosen = "recursive"
+    return [replace(plan, strategy=chosen) if k in auto else plan for k, plan in enumerate(plans)]
 
 
 def strategy_groups(pools: list[PoolRows]) -> dict[str, list[int]]:
