@@ -295,10 +295,11 @@ def test_joint_paths_keep_the_correlation_with_every_option(histories, options, 
     # As the fast test, with 2,000 paths x 28 days; the reference is the history's correlation
     # over the days the pools hold, n = pool_days in its SE. Wards drawn in different groups
     # (given different strategies) would be checked for 0 correlation, SE 1/sqrt(56,000 - 3)
-    # = 0.004. Measured (pairs 0-1, 0-2, 1-2; history over the pool's days in brackets): auto
-    # took recursive for all three: 0.396 (0.399), 0.409 (0.411), 0.310 (0.313); refit 0.391
-    # (0.399), 0.404 (0.411), 0.306 (0.313); recursive with backtest errors 0.499 (0.501), 0.435 (0.449),
-    # 0.376 (0.379); direct with backtest errors 0.482 (0.500), 0.440 (0.452), 0.368 (0.380).
+    # = 0.004. Measured (pairs 0-1, 0-2, 1-2; history over the pool's days in brackets):
+    # auto (recursive for all three) 0.396 (0.399), 0.409 (0.411), 0.310 (0.313); refit
+    # 0.391 (0.399), 0.404 (0.411), 0.306 (0.313); recursive with backtest errors 0.499
+    # (0.501), 0.435 (0.449), 0.376 (0.379); direct with backtest errors 0.482 (0.500), 0.440
+    # (0.452), 0.368 (0.380).
     settings = ForecastSettings(max_lag=14, **options)
     joint = forecast_wards(
         histories, [settings] * 3, SLOW_HORIZON, SLOW_PATHS, np.random.default_rng(21)
