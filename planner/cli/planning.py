@@ -20,6 +20,7 @@ from planner.cli.base import (
     user_errors,
     worker_count,
 )
+from planner.errors import PlannerError
 
 
 @click.command()
@@ -51,8 +52,17 @@ def simulate(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, s
 @simulation_options
 @user_errors
 def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, scheduler) -> None:
-    """Forecast, simulate and report: weekly.csv, charts, report.html, run.json."""
+    """Forecast, simulate and report: weekly.csv, charts, report.html, run.json. Given a
+    hospital file (wards listed with [[ward]]), the wards run together with their outlying
+    rules: hospital.csv, outlying.csv, placements.csv, report.html and each ward's files."""
+    from planner.hospital.scenario import is_hospital_file
     from planner.outputs import DEFAULT_ROOT, atomic_folder
+
+    if is_hospital_file(scenario):
+        from planner.cli.hospital import run_hospital_file
+
+        options = run_options(paths, seed, engine, jobs, scheduler)
+        return run_hospital_file(scenario, out, overwrite, options)
     from planner.report.html import CACHED_BACKTEST, CAUTION
     from planner.report.run_report import headline, terminal_table, write_run_files
     from planner.runs.hindcast import latest_hindcast
@@ -95,11 +105,23 @@ def compare(
 ) -> None:
     """Compare ward plans (the first is the reference) with common random numbers:
     comparison.csv, costs.csv, a chart and comparison.html."""
+    from planner.hospital.scenario import is_hospital_file
     from planner.outputs import atomic_folder, default_folder
     from planner.report.compare_report import write_compare_files
     from planner.runs.compare import compare_scenarios
     from planner.scenario import load_scenario
 
+    hospitals = [is_hospital_file(path) for path in scenarios]
+    if any(hospitals):
+        from planner.cli.hospital import compare_hospital_files
+
+        if not all(hospitals):
+            raise PlannerError("compare: give only hospital files or only ward scenarios, not both")
+        if independent:
+            raise PlannerError("compare: --independent is for ward plans; hospital plans compare "
+                            "paired")  # fmt: skip
+        options = run_options(paths, seed, engine, jobs, scheduler)
+        return compare_hospital_files(list(scenarios), out, overwrite, options)
     first = load_scenario(scenarios[0])
     target = out if out is not None else default_folder(first.name, "compare")
 

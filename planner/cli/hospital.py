@@ -1,0 +1,60 @@
+"""``planner run`` on a hospital file: the wards together (:mod:`planner.hospital`)."""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import click
+
+
+def run_hospital_file(path: Path, out: Path | None, overwrite: bool, options) -> None:
+    """Forecast, simulate and report a hospital; print its weekly table and headline."""
+    from planner.hospital.run import load_histories, run_hospital
+    from planner.hospital.scenario import load_hospital
+    from planner.outputs import atomic_folder, default_folder
+    from planner.report.hospital_report import headline, terminal_table, write_hospital_files
+    from planner.report.html import CAUTION
+
+    scenario = load_hospital(path)
+    histories = load_histories(scenario)
+    target = out if out is not None else default_folder(scenario.name, "run")
+    if sys.stderr.isatty():
+        click.echo(f"{scenario.name}: forecasting admissions of {len(scenario.names)} wards",
+                   err=True)  # fmt: skip
+    with atomic_folder(target, overwrite) as folder:
+        run = run_hospital(scenario, options, histories=histories)
+        write_hospital_files(run, folder)
+    start = histories[0].start.date()
+    click.echo(f"{scenario.name}: {', '.join(scenario.names)}; {run.paths} paths from {start}")
+    for line in scenario.describe_outlying():
+        click.echo(f"  {line}")
+    click.echo(terminal_table(run))
+    for name, ward in zip(scenario.names, run.wards, strict=True):
+        outlook = ward.summary.outlook
+        click.echo(f"{name}: chance its patients find no bed anywhere in {outlook.weeks} weeks "
+                   f"{outlook.p_bed_shortfall:.0%}")  # fmt: skip
+    if run.forecast_note:
+        click.echo(run.forecast_note)
+    click.echo(headline(run))
+    click.echo(CAUTION)
+    click.echo(f"wrote {target}/report.html")
+
+
+def compare_hospital_files(paths: list[Path], out: Path | None, overwrite: bool, options) -> None:
+    """Compare hospital plans paired; print the glance table."""
+    from planner.cli.base import progress_bar
+    from planner.hospital.compare import compare_hospitals
+    from planner.hospital.scenario import load_hospital
+    from planner.outputs import atomic_folder, default_folder
+    from planner.report.hospital_compare_report import terminal_glance, write_hospital_compare_files
+    from planner.report.html import CAUTION
+
+    first = load_hospital(paths[0])
+    target = out if out is not None else default_folder(first.name, "compare")
+    with atomic_folder(target, overwrite) as folder:
+        comparison = compare_hospitals(paths, options, lambda label: progress_bar(label))
+        write_hospital_compare_files(comparison, folder)
+    click.echo(terminal_glance(comparison.glance))
+    click.echo(CAUTION)
+    click.echo(f"wrote {target}/comparison.html")
