@@ -76,3 +76,15 @@ def test_run_and_compare_on_the_cluster_equal_local_runs(scheduler, tmp_path):
         )
         assert first.exit_code == 0 and second.exit_code == 0, first.output + second.output
         assert (local / files[command]).read_bytes() == (remote / files[command]).read_bytes()
+
+
+def test_a_hospital_on_the_cluster_equals_a_local_run(scheduler):
+    from test_hospital_engine import linked_hospital, same
+
+    from planner.hospital.engines import simulate
+    from planner.simulate.model import RunOptions
+
+    model, arrivals = linked_hospital()
+    local = simulate(arrivals, model, 5, RunOptions(jobs=1))
+    remote = simulate(arrivals, model, 5, RunOptions(jobs=2, scheduler=scheduler))
+    assert same(local, remote)

@@ -179,3 +179,35 @@ def test_hospital_rules_are_checked():
         HospitalModel(("A", "A"), (ward(2), ward(2)))
     with pytest.raises(PlannerError, match="start on different days"):
         HospitalModel(("A", "B"), (ward(2), replace(ward(2), start=date(2024, 2, 1))))
+
+
+def linked_hospital() -> tuple[HospitalModel, list[np.ndarray]]:
+    rng = np.random.default_rng(12)
+    models = (ward(4, "wait"), ward(3, "divert"), ward(5, "wait", inpatients=np.array([1.0])))
+    outlying = Outlying(((1, 2), (0,), (0,)), True, 24.0)
+    arrivals = [rng.poisson(2.5, size=(37, 15)) for _ in models]
+    return HospitalModel(("A", "B", "C"), models, outlying), arrivals
+
+
+def same(one, other) -> bool:
+    arrays = ("outliers_placed", "moved_back", "outlier_hours", "placed_between")
+    return all(np.array_equal(getattr(one, name), getattr(other, name)) for name in arrays) and all(
+        np.array_equal(getattr(a, name), getattr(b, name))
+        for a, b in zip(one.wards, other.wards, strict=True)
+        for name in (*PATH_DAILY, *PATH_SHIFTS)
+    )
+
+
+def test_results_do_not_depend_on_jobs_or_chunks():
+    from planner.hospital.engines import simulate
+    from planner.simulate.model import RunOptions
+
+    model, arrivals = linked_hospital()
+    whole = simulate_hospital_fast(arrivals, model, 5)
+    assert whole.outliers_placed.sum() > 0 and whole.moved_back.sum() > 0
+    for jobs in (1, 2, 3):
+        assert same(whole, simulate(arrivals, model, 5, RunOptions(jobs=jobs)))
+    first = simulate_hospital_fast([a[:20] for a in arrivals], model, 5)
+    rest = simulate_hospital_fast([a[20:] for a in arrivals], model, 5, first_path=20)
+    halves = [first, rest]
+    assert same(whole, type(whole).concat(halves))
