@@ -56,26 +56,39 @@ class HospitalInputs:
 
 
 @compiled
-def _join(offsets, hours, order):  # pragma: no cover - compiled
-    """``order``: for each path, the positions in the wards' concatenated arrays of its
-    patients in order of time (ties: lower ward first). ``offsets``: (wards, paths + 1) the
-    wards' path offsets, already shifted to the concatenation."""
+def _join(offsets, ward_inputs, joined):  # pragma: no cover - compiled
+    """Path by path, the wards' patients in order of time (ties: lower ward first).
+    ``offsets``: (wards, paths + 1) the wards' path offsets into the concatenated
+    ``ward_inputs`` (hours, stays, clock uniforms, planned flags; the last two may be empty);
+    ``joined``: (hours, home wards, stays, clock uniforms, planned flags) filled in. The next
+    patient is the least of the wards' next arrival times, kept side by side (a short scan)."""
+    hours, stays, clock, planned = ward_inputs
+    out_hours, out_ward, out_stays, out_clock, out_planned = joined
     wards, paths = offsets.shape[0], offsets.shape[1] - 1
     at = np.empty(wards, dtype=np.int64)
+    following = np.empty(wards)  # each ward's next arrival time, inf when none is left
     m = 0
     for i in range(paths):
         for w in range(wards):
             at[w] = offsets[w, i]
-        while True:
-            best, when = -1, np.inf
-            for w in range(wards):
-                if at[w] < offsets[w, i + 1] and (best < 0 or hours[at[w]] < when):
-                    best, when = w, hours[at[w]]
-            if best < 0:
-                break
-            order[m] = at[best]
-            at[best] += 1
+            following[w] = hours[at[w]] if at[w] < offsets[w, i + 1] else np.inf
+        end = m
+        for w in range(wards):
+            end += offsets[w, i + 1] - offsets[w, i]
+        while m < end:
+            w = 0
+            for v in range(1, wards):
+                if following[v] < following[w]:
+                    w = v
+            k = at[w]
+            out_hours[m], out_ward[m], out_stays[m] = hours[k], w, stays[k]
+            if clock.size > 0:
+                out_clock[m] = clock[k]
+            if planned.size > 0:
+                out_planned[m] = planned[k]
             m += 1
+            at[w] = k + 1
+            following[w] = hours[k + 1] if k + 1 < offsets[w, i + 1] else np.inf
 
 
 def join_wards(parts: list[DrawnInputs]) -> HospitalInputs:
@@ -84,28 +97,31 @@ def join_wards(parts: list[DrawnInputs]) -> HospitalInputs:
     sizes = [part.arrival_hours.size for part in parts]
     shift = np.concatenate([[0], np.cumsum(sizes)[:-1]])
     offsets = np.array([part.offsets + s for part, s in zip(parts, shift, strict=True)])
-    hours = np.concatenate([part.arrival_hours for part in parts])
-    order = np.empty(hours.size, dtype=np.int64)
-    _join(offsets, hours, order)
 
-    def joined(name: str, dtype) -> np.ndarray:
+    def concatenated(name: str, dtype) -> np.ndarray:
         values = [getattr(part, name) for part in parts]
         if not any(value.size for value in values):
             return np.zeros(0, dtype=dtype)
         pairs = zip(values, sizes, strict=True)
-        full = [v if v.size else np.zeros(n, dtype=dtype) for v, n in pairs]
-        return np.concatenate(full).astype(dtype, copy=False)[order]
+        return np.concatenate([v if v.size else np.zeros(n, dtype=dtype) for v, n in pairs])
 
-    ward = np.repeat(np.arange(len(parts)), sizes)[order]
-    total = np.sum([part.offsets for part in parts], axis=0)
+    ward_inputs = (np.concatenate([part.arrival_hours for part in parts]),
+                   np.concatenate([part.stay_days for part in parts]),
+                   concatenated("clock_uniforms", np.float64),
+                   concatenated("planned", np.uint8))  # fmt: skip
+    total = sum(sizes)
+    clock, planned = ward_inputs[2].size, ward_inputs[3].size
+    joined = (np.empty(total), np.empty(total, dtype=np.int64), np.empty(total),
+              np.empty(clock), np.empty(planned, dtype=np.uint8))  # fmt: skip
+    _join(offsets, ward_inputs, joined)
     return HospitalInputs(
         first_path=parts[0].first_path,
-        offsets=total,
-        arrival_hours=hours[order],
-        ward=ward,
-        stay_days=np.concatenate([part.stay_days for part in parts])[order],
-        clock_uniforms=joined("clock_uniforms", np.float64),
-        planned=joined("planned", np.uint8),
+        offsets=np.sum([part.offsets for part in parts], axis=0),
+        arrival_hours=joined[0],
+        ward=joined[1],
+        stay_days=joined[2],
+        clock_uniforms=joined[3],
+        planned=joined[4],
         remaining_days=np.hstack([part.remaining_days for part in parts]).reshape(paths, -1),
         inpatient_ward=np.repeat(
             np.arange(len(parts)), [part.remaining_days.shape[1] for part in parts]
