@@ -24,7 +24,7 @@ def run_hospital_file(path: Path, out: Path | None, overwrite: bool, options) ->
                    err=True)  # fmt: skip
     with atomic_folder(target, overwrite) as folder:
         run = run_hospital(scenario, options, histories=histories)
-        write_hospital_files(run, folder)
+        write_hospital_files(run, folder, options.jobs)
     start = histories[0].start.date()
     click.echo(f"{scenario.name}: {', '.join(scenario.names)}; {run.paths} paths from {start}")
     for line in scenario.describe_outlying():
@@ -54,7 +54,7 @@ def compare_hospital_files(paths: list[Path], out: Path | None, overwrite: bool,
     target = out if out is not None else default_folder(first.name, "compare")
     with atomic_folder(target, overwrite) as folder:
         comparison = compare_hospitals(paths, options, lambda label: progress_bar(label))
-        write_hospital_compare_files(comparison, folder)
+        write_hospital_compare_files(comparison, folder, options.jobs)
     click.echo(terminal_glance(comparison.glance))
     click.echo(CAUTION)
     click.echo(f"wrote {target}/comparison.html")

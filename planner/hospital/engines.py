@@ -15,7 +15,7 @@ from concurrent.futures.process import BrokenProcessPool
 import numpy as np
 
 from planner.hospital.model import HospitalModel
-from planner.hospital.result import HospitalResult
+from planner.hospital.result import HospitalResult, allocate, fill
 from planner.simulate import workers
 from planner.simulate.engines import CHUNK_PATHS, chosen_engine, chunk_bounds
 from planner.simulate.model import RunOptions
@@ -48,13 +48,19 @@ def simulate(
     pieces = chunk_bounds(paths, jobs, chunk)
     arguments = [(name, [np.asarray(a)[lo:hi] for a in arrivals], model, seed, lo)
                  for lo, hi in pieces]  # fmt: skip
-    parts: list[HospitalResult | None] = [None] * len(pieces)
+    whole: list[HospitalResult] = []  # the result, allocated when the first chunk is done
+    done = [0]
 
     def finished(i: int, part: HospitalResult) -> None:
-        parts[i] = part
+        if len(pieces) == 1:
+            whole.append(part)
+        else:
+            if not whole:
+                whole.append(allocate(part, paths))
+            fill(whole[0], part, pieces[i][0])
+        done[0] += part.paths
         if options.progress is not None:
-            done = sum(hi - lo for (lo, hi), p in zip(pieces, parts, strict=True) if p is not None)
-            options.progress(done, paths)
+            options.progress(done[0], paths)
 
     if options.scheduler is not None:
         from planner.simulate.distributed import map_chunks
@@ -79,4 +85,4 @@ def simulate(
         except BaseException:
             workers.stop()
             raise
-    return HospitalResult.concat([part for part in parts if part is not None])
+    return whole[0]

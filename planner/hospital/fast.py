@@ -13,9 +13,11 @@ A ward with no outlying links follows exactly the steps of the one-ward engine
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
-from planner.hospital.result import COUNTED, HospitalResult, hospital_result
+from planner.hospital.result import COUNTED, HospitalResult, allocate, fill, hospital_result
 from planner.hospital.sampling import HospitalInputs, draw_hospital
 from planner.simulate.compiled import compiled, compiled_inline
 from planner.simulate.discharge_times import discharge_at, tables_for
@@ -167,7 +169,7 @@ def _simulate_block(inputs, ward, links, records, tables):  # pragma: no cover -
                         if following[w] == boundary:  # a shift starts: close the last one
                             interval, shifts = st[w, _INTERVAL], nshifts[w]
                             if interval >= 0:
-                                shift_peak[p, w, interval // shifts, interval % shifts] = st[
+                                shift_peak[w, p, interval // shifts, interval % shifts] = st[
                                     w, _SHIFT_LEVEL
                                 ]
                             interval += 1
@@ -177,10 +179,10 @@ def _simulate_block(inputs, ward, links, records, tables):  # pragma: no cover -
                                             + starts[w, (interval + 1) % shifts])  # fmt: skip
                     if midnight == boundary:  # 00:00: the day's records, then bed changes
                         for w in range(wards):
-                            counts[p, w, day, _CENSUS] = st[w, _LEVEL]
-                            counts[p, w, day, _PEAK] = st[w, _DAY_PEAK]
-                            counts[p, w, day, _QUEUE] = st[w, _QTAIL] - st[w, _QHEAD]
-                            counts[p, w, day, _OUTLIERS_ON_WARD] = st[w, _HOSTING]
+                            counts[w, _CENSUS, p, day] = st[w, _LEVEL]
+                            counts[w, _PEAK, p, day] = st[w, _DAY_PEAK]
+                            counts[w, _QUEUE, p, day] = st[w, _QTAIL] - st[w, _QHEAD]
+                            counts[w, _OUTLIERS_ON_WARD, p, day] = st[w, _HOSTING]
                         day += 1
                         now = midnight
                         midnight += 24.0
@@ -196,7 +198,7 @@ def _simulate_block(inputs, ward, links, records, tables):  # pragma: no cover -
                     gone = who[0]
                     size = _pop_patient(heap, who, size)
                     v = loc[gone]
-                    counts[p, v, day, _DISCHARGES] += 1
+                    counts[v, _DISCHARGES, p, day] += 1
                     if listed[gone] >= 0:  # an outlier leaves its host ward
                         st[v, _HOSTING] -= 1
                         ended[homes[lo + gone - inpatients], listed[gone]] = now
@@ -206,15 +208,15 @@ def _simulate_block(inputs, ward, links, records, tables):  # pragma: no cover -
                     u = homes[a]
                     booked = some_planned and planned[a] == 1
                     if st[u, _LEVEL] < st[u, _BEDS]:
-                        counts[p, u, day, _ADMISSIONS] += 1
+                        counts[u, _ADMISSIONS, p, day] += 1
                         st[u, _LEVEL] += 1
                         take, to = a, u
                     elif booked and cancel[u]:
-                        counts[p, u, day, _CANCELLED] += 1
+                        counts[u, _CANCELLED, p, day] += 1
                         if st[u, _HOSTING] > 0:
-                            counts[p, u, day, _CANCELLED_OUTLIERS] += 1
+                            counts[u, _CANCELLED_OUTLIERS, p, day] += 1
                     else:
-                        counts[p, u, day, _ADMISSIONS] += 1
+                        counts[u, _ADMISSIONS, p, day] += 1
                         for j in range(0 if booked else nhosts[u]):
                             if st[hosts[u, j], _LEVEL] < st[hosts[u, j], _BEDS]:
                                 to = hosts[u, j]
@@ -223,22 +225,22 @@ def _simulate_block(inputs, ward, links, records, tables):  # pragma: no cover -
                             st[to, _LEVEL] += 1
                             take = a
                         elif wait[u] or booked:
-                            counts[p, u, day, _WAITED] += 1
+                            counts[u, _WAITED, p, day] += 1
                             n = st[u, _QTAIL]
                             queue[u, n] = a
                             queue_day[u, n] = day
                             st[u, _QTAIL] = n + 1
                         else:
-                            counts[p, u, day, _DIVERTED] += 1
+                            counts[u, _DIVERTED, p, day] += 1
                     a += 1
             while True:  # settle: beds to give, beds freed
                 if take >= 0:  # new patient ``take`` gets a bed on ward ``to`` at ``now``
                     u = homes[take]
                     slot = inpatients + take - lo
-                    counts[p, to, day, _BED_ADMISSIONS] += 1
+                    counts[to, _BED_ADMISSIONS, p, day] += 1
                     booked = some_planned and planned[take] == 1
                     if booked:
-                        counts[p, to, day, _PLANNED] += 1
+                        counts[to, _PLANNED, p, day] += 1
                     leave = now + 24.0 * stays[take]
                     if tables is not None and calendar[u] and not booked:
                         leave = _calendar_leave(now, stays[take], clock[take], tables[u])
@@ -246,8 +248,8 @@ def _simulate_block(inputs, ward, links, records, tables):  # pragma: no cover -
                     loc[slot] = to
                     listed[slot] = -1
                     if u != to:  # an outlier
-                        counts[p, u, day, _PLACED] += 1
-                        counts[p, to, day, _HOSTED] += 1
+                        counts[u, _PLACED, p, day] += 1
+                        counts[to, _HOSTED, p, day] += 1
                         between[p, u, to] += 1
                         st[to, _HOSTING] += 1
                         n = st[u, _FTAIL]
@@ -294,27 +296,27 @@ def _simulate_block(inputs, ward, links, records, tables):  # pragma: no cover -
                 host = loc[mover]  # the outlier moves home; the host's bed frees in turn
                 loc[mover] = v
                 st[host, _HOSTING] -= 1
-                counts[p, v, day, _MOVED_BACK] += 1
-                counts[p, host, day, _MOVED_OUT] += 1
+                counts[v, _MOVED_BACK, p, day] += 1
+                counts[host, _MOVED_OUT, p, day] += 1
                 ended[v, listed[mover]] = now
                 listed[mover] = -1
                 freed = host
             if filling < wards and st[filling, _LEVEL] < filled:  # nobody for that bed
                 filling += 1
         for w in range(wards):
-            counts[p, w, days - 1, _CENSUS] = st[w, _LEVEL]
-            counts[p, w, days - 1, _PEAK] = st[w, _DAY_PEAK]
-            counts[p, w, days - 1, _QUEUE] = st[w, _QTAIL] - st[w, _QHEAD]
-            counts[p, w, days - 1, _OUTLIERS_ON_WARD] = st[w, _HOSTING]
+            counts[w, _CENSUS, p, days - 1] = st[w, _LEVEL]
+            counts[w, _PEAK, p, days - 1] = st[w, _DAY_PEAK]
+            counts[w, _QUEUE, p, days - 1] = st[w, _QTAIL] - st[w, _QHEAD]
+            counts[w, _OUTLIERS_ON_WARD, p, days - 1] = st[w, _HOSTING]
             interval, shifts = st[w, _INTERVAL], nshifts[w]
             if interval >= 0:
-                shift_peak[p, w, interval // shifts, interval % shifts] = st[w, _SHIFT_LEVEL]
+                shift_peak[w, p, interval // shifts, interval % shifts] = st[w, _SHIFT_LEVEL]
             for q in range(st[w, _QHEAD], st[w, _QTAIL]):  # still waiting at the end
                 waits[w, q] = horizon - hours[queue[w, q]]
             for q in range(st[w, _QTAIL]):  # summed in order of arrival
-                wait_hours[p, w, queue_day[w, q]] += waits[w, q]
+                wait_hours[w, p, queue_day[w, q]] += waits[w, q]
             for n in range(st[w, _FTAIL]):  # summed in order of placing
-                outlier_hours[p, w, placed_day[w, n]] += ended[w, n] - placed_at[w, n]
+                outlier_hours[w, p, placed_day[w, n]] += ended[w, n] - placed_at[w, n]
 
 
 def _ward_tables(model):
@@ -373,11 +375,15 @@ def beds_by_ward(model, days: int) -> np.ndarray:
 
 
 def _record_arrays(paths: int, wards: int, days: int, shifts: int):
+    """The records, ward first, so that each ward's measure is one contiguous (paths, days)
+    block that the result views without copying: counts (wards, ``COUNTED``, paths, days),
+    wait hours and outlier hours (wards, paths, days), shift peaks (wards, paths, days, most
+    shifts), outliers placed between wards (paths, wards, wards)."""
     return (
-        np.zeros((paths, wards, days, len(COUNTED)), dtype=np.int32),
-        np.zeros((paths, wards, days)),
-        np.zeros((paths, wards, days)),
-        np.zeros((paths, wards, days, shifts), dtype=np.int32),
+        np.zeros((wards, len(COUNTED), paths, days), dtype=np.int32),
+        np.zeros((wards, paths, days)),
+        np.zeros((wards, paths, days)),
+        np.zeros((wards, paths, days, shifts), dtype=np.int32),
         np.zeros((paths, wards, wards), dtype=np.int32),
     )
 
@@ -406,8 +412,13 @@ def simulate_hospital_fast(
     paths, days = arrivals[0].shape
     per_path = max(int(sum(counts.sum(axis=1).max(initial=0) for counts in arrivals)), 1)
     block = max(BLOCK_PATIENTS // per_path, 1)
-    parts = []
+    result = None
     for lo in range(0, paths, block):
         inputs = draw_hospital(model, [c[lo : lo + block] for c in arrivals], seed, first_path + lo)
-        parts.append(simulate_drawn(inputs, model, days))
-    return HospitalResult.concat(parts)
+        part = simulate_drawn(inputs, model, days)
+        if lo == 0 and block >= paths:
+            return part
+        if result is None:
+            result = allocate(part, paths)
+        fill(result, part, lo)
+    return replace(result, wards=tuple(replace(w, first_path=first_path) for w in result.wards))

@@ -2,18 +2,18 @@
 
 :class:`HospitalResult` holds one :class:`planner.simulate.result.WardResult` per ward (census,
 admissions, waits and so on, counted as :mod:`planner.hospital.model` says) and the outlying
-measures, per path, ward and day, with paths on the first axis so chunks of paths join by
-concatenation (:meth:`HospitalResult.concat`).
+measures, per ward, path and day (ward first: each ward's block is contiguous, as the engines
+write it). Chunks of paths join along the paths axis (:meth:`HospitalResult.concat`).
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, fields, replace
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from planner.simulate.fast import COUNTED as WARD_COUNTED
-from planner.simulate.result import PATH_DAILY, WardResult, ward_result
+from planner.simulate.result import PATH_DAILY, PATH_SHIFTS, WardResult, ward_result
 
 #: Per path, ward and day (int32, patients): ``outliers_placed`` (the ward's patients placed on
 #: another ward, by the day placed), ``outliers_hosted`` (other wards' patients placed here),
@@ -29,7 +29,7 @@ COUNTED = (*WARD_COUNTED, *OUTLYING)
 @dataclass(frozen=True, eq=False)
 class HospitalResult:
     """``names`` and ``wards`` (one ``WardResult`` each, hospital order); the measures of
-    :data:`OUTLYING`, each (paths, wards, days) int32; ``outlier_hours`` (paths, wards, days)
+    :data:`OUTLYING`, each (wards, paths, days) int32; ``outlier_hours`` (wards, paths, days)
     float64: hours the ward's patients spent outlying, by the day each was placed (to the end
     of the window for those still outlying); ``placed_between`` (paths, wards, wards) int32:
     outliers placed over the window by home ward (rows) and host ward (columns)."""
@@ -47,7 +47,7 @@ class HospitalResult:
 
     @property
     def paths(self) -> int:
-        return self.outliers_placed.shape[0]
+        return self.placed_between.shape[0]
 
     def ward(self, name: str) -> WardResult:
         return self.wards[self.names.index(name)]
@@ -61,38 +61,67 @@ class HospitalResult:
             WardResult.concat([part.wards[w] for part in parts]) for w in range(len(parts[0].wards))
         )
         arrays = {
-            field.name: np.concatenate([getattr(part, field.name) for part in parts])
-            for field in fields(cls)
-            if field.name not in ("names", "wards")
+            name: np.concatenate([getattr(part, name) for part in parts], axis=1)
+            for name in (*OUTLYING, "outlier_hours")
         }
-        return replace(parts[0], wards=wards, **arrays)
+        between = np.concatenate([part.placed_between for part in parts])
+        return replace(parts[0], wards=wards, placed_between=between, **arrays)
+
+
+def allocate(part: HospitalResult, paths: int) -> HospitalResult:
+    """A result of ``paths`` paths (from path 0) shaped like ``part``, zero-filled, for
+    :func:`fill` to copy chunks into (so the chunks are never joined by copying them all)."""
+
+    def zeros(values: np.ndarray, axis: int) -> np.ndarray:
+        shape = list(values.shape)
+        shape[axis] = paths
+        return np.zeros(shape, dtype=values.dtype)
+
+    wards = tuple(
+        replace(ward, first_path=0,
+                **{name: zeros(getattr(ward, name), 0) for name in (*PATH_DAILY, *PATH_SHIFTS)})
+        for ward in part.wards
+    )  # fmt: skip
+    arrays = {name: zeros(getattr(part, name), 1) for name in (*OUTLYING, "outlier_hours")}
+    return replace(part, wards=wards, placed_between=zeros(part.placed_between, 0), **arrays)
+
+
+def fill(result: HospitalResult, part: HospitalResult, first: int) -> None:
+    """Copy the chunk ``part`` into ``result`` (from :func:`allocate`) at path ``first``."""
+    rows = slice(first, first + part.paths)
+    for whole, chunk in zip(result.wards, part.wards, strict=True):
+        for name in (*PATH_DAILY, *PATH_SHIFTS):
+            getattr(whole, name)[rows] = getattr(chunk, name)
+    for name in (*OUTLYING, "outlier_hours"):
+        getattr(result, name)[:, rows] = getattr(part, name)
+    result.placed_between[rows] = part.placed_between
 
 
 def hospital_result(model, first_path: int, beds: np.ndarray, records) -> HospitalResult:
-    """A ``HospitalResult`` from the engines' records: counts (paths, wards, days,
-    ``COUNTED``), wait hours and outlier hours (paths, wards, days), shift peaks (paths, wards,
+    """A ``HospitalResult`` from the engines' records, ward first (as
+    :func:`planner.hospital.fast._record_arrays` makes them): counts (wards, ``COUNTED``,
+    paths, days), wait hours and outlier hours (wards, paths, days), shift peaks (wards, paths,
     days, most shifts; each ward's shifts in the order of their start hours) and outliers
-    placed between wards (paths, wards, wards); ``beds``: (wards, days) beds open."""
+    placed between wards (paths, wards, wards); ``beds``: (wards, days) beds open. The
+    measures are views of the records, not copies."""
     counts, wait_hours, outlier_hours, peaks, between = records
     wards = []
     for w, ward in enumerate(model.wards):
         shifts = ward.settings.staffing.shifts
         order = np.argsort([shift.start_hour for shift in shifts], kind="stable")
-        shift_peak = np.empty(peaks.shape[:1] + peaks.shape[2:3] + (len(shifts),), np.int32)
-        shift_peak[:, :, order] = peaks[:, w, :, : len(shifts)]
-        daily = {name: counts[:, w, :, i] for i, name in enumerate(WARD_COUNTED)}
-        daily["wait_hours"] = wait_hours[:, w]
-        assert set(daily) == set(PATH_DAILY)
+        shift_peak = peaks[w, :, :, : len(shifts)]
+        if not np.array_equal(order, np.arange(len(shifts))):
+            shift_peak = np.empty_like(shift_peak)
+            shift_peak[:, :, order] = peaks[w, :, :, : len(shifts)]
+        daily = {name: counts[w, i] for i, name in enumerate(WARD_COUNTED)}
+        daily["wait_hours"] = wait_hours[w]
         wards.append(ward_result(ward.start, first_path, daily, beds[w], shift_peak,
                                  ward.settings.staffing))  # fmt: skip
-    outlying = {
-        name: np.ascontiguousarray(counts[:, :, :, len(WARD_COUNTED) + i])
-        for i, name in enumerate(OUTLYING)
-    }
+    outlying = {name: counts[:, len(WARD_COUNTED) + i] for i, name in enumerate(OUTLYING)}
     return HospitalResult(
         names=tuple(model.names),
         wards=tuple(wards),
         **outlying,
-        outlier_hours=np.ascontiguousarray(outlier_hours),
-        placed_between=np.ascontiguousarray(between),
+        outlier_hours=outlier_hours,
+        placed_between=between,
     )

@@ -67,14 +67,16 @@ def weekly_view(table: pd.DataFrame) -> pd.DataFrame:
     return wide.rename(columns={"week_start": "week from"})
 
 
-def write_hospital_compare_files(comparison: HospitalComparison, folder: Path) -> None:
+def write_hospital_compare_files(
+    comparison: HospitalComparison, folder: Path, jobs: int = 1
+) -> None:
     write_csv(comparison.table, folder / "comparison.csv")
     write_csv(comparison.glance, folder / "glance.csv")
     links = []
     for run in comparison.runs:
         place = folder / "plans" / ward_folder(run.scenario.name)
         place.mkdir(parents=True, exist_ok=True)
-        write_hospital_files(run, place)
+        write_hospital_files(run, place, jobs)
         links.append(f'<li><a href="plans/{ward_folder(run.scenario.name)}/report.html">'
                      f"{html.escape(run.scenario.name)}</a></li>")  # fmt: skip
     first = comparison.runs[0]

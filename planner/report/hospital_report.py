@@ -139,15 +139,46 @@ def hospital_page(run: HospitalRun) -> str:
     return html.page(f"Hospital plan: {scenario.name}", sections, subtitle)
 
 
-def write_hospital_files(run: HospitalRun, folder: Path) -> None:
-    """All files of a hospital run into ``folder`` (module docstring)."""
+#: What forked writers of ward folders read (set just before they are forked).
+_WRITING: dict[str, object] = {}
+
+
+def _write_ward(index: int) -> None:
+    run, folder = _WRITING["run"], _WRITING["folder"]
+    name, ward = run.scenario.names[index], run.wards[index]
+    place = folder / "wards" / ward_folder(name)
+    place.mkdir(parents=True, exist_ok=True)
+    write_run_files(ward, place)
+
+
+def _write_wards(run: HospitalRun, folder: Path, jobs: int) -> None:
+    """Every ward's files, in ``jobs`` processes forked for the purpose where processes can
+    be forked (charts and workbooks take about a second a ward), else one after another."""
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+
+    _WRITING.update(run=run, folder=folder)
+    try:
+        wards = range(len(run.wards))
+        if jobs < 2 or len(run.wards) < 2 or "fork" not in multiprocessing.get_all_start_methods():
+            for index in wards:
+                _write_ward(index)
+            return
+        context = multiprocessing.get_context("fork")
+        with ProcessPoolExecutor(min(jobs, len(run.wards)), mp_context=context) as pool:
+            for done in [pool.submit(_write_ward, index) for index in wards]:
+                done.result()
+    finally:
+        _WRITING.clear()
+
+
+def write_hospital_files(run: HospitalRun, folder: Path, jobs: int = 1) -> None:
+    """All files of a hospital run into ``folder`` (module docstring); the wards' folders in
+    ``jobs`` processes."""
     write_csv(run.table, folder / "hospital.csv")
     write_csv(run.outlying, folder / "outlying.csv")
     write_csv(run.placements.reset_index(), folder / "placements.csv")
-    for name, ward in zip(run.scenario.names, run.wards, strict=True):
-        place = folder / "wards" / ward_folder(name)
-        place.mkdir(parents=True, exist_ok=True)
-        write_run_files(ward, place)
+    _write_wards(run, folder, jobs)
     (folder / "report.html").write_text(hospital_page(run))
     inputs = sorted({path for ward in run.scenario.scenarios
                      for path in (ward.admissions_file, ward.episodes_file) if path})  # fmt: skip

@@ -51,6 +51,11 @@ def _weeks(values: np.ndarray, skip: int) -> np.ndarray:
     return values[..., : 7 * weeks].reshape(*values.shape[:-1], weeks, 7).sum(axis=-1)
 
 
+def _by_path(values: np.ndarray, skip: int) -> np.ndarray:
+    """Weekly sums of a (wards, paths, days) measure as (paths, wards, weeks)."""
+    return np.moveaxis(_weeks(values, skip), 0, 1)
+
+
 def hospital_weeks(result: HospitalResult, start) -> HospitalWeeks:
     """The weekly measures of ``result``, weeks counted from ``start`` (a later first day
     than the simulation's drops the days before it)."""
@@ -66,11 +71,11 @@ def hospital_weeks(result: HospitalResult, start) -> HospitalWeeks:
         names=result.names,
         no_bed=no_bed,
         diverted=diverted,
-        placed=_weeks(result.outliers_placed, skip),
-        hosted=_weeks(result.outliers_hosted, skip),
-        outlier_bed_days=_weeks(result.outlier_hours, skip) / 24.0,
-        moved_back=_weeks(result.moved_back, skip),
-        cancelled_with_outliers=_weeks(result.cancelled_with_outliers, skip),
+        placed=_by_path(result.outliers_placed, skip),
+        hosted=_by_path(result.outliers_hosted, skip),
+        outlier_bed_days=_by_path(result.outlier_hours, skip) / 24.0,
+        moved_back=_by_path(result.moved_back, skip),
+        cancelled_with_outliers=_by_path(result.cancelled_with_outliers, skip),
     )
 
 
