@@ -14,15 +14,15 @@ on-disk cache, forecasts, simulation and every report file are included):
 - run, jobs=1;
 - run on a dask.distributed cluster: a LocalCluster of 2 worker processes started here,
   ``--scheduler``; its hospital.csv must equal the local run's byte for byte.
-Peak memory: the largest resident set of the command's processes (the main process, its
-worker, or for the cluster row the main process only), from ``getrusage``.
+Peak memory: the command's resident memory with its worker processes added together, sampled
+every 0.1 s (psutil, installed with dask.distributed); for the cluster row, the command's
+own processes only (the cluster's workers are not its children).
 """
 
 from __future__ import annotations
 
 import argparse
 import os
-import resource
 import subprocess
 import sys
 import tempfile
@@ -79,15 +79,26 @@ def write_hospital(folder: Path, seed: int = 20261202) -> Path:
 
 
 def command(arguments: list[str]) -> tuple[float, float]:
-    """Seconds and peak resident memory (GB, largest process) of a fresh process."""
-    before = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+    """Seconds and peak resident memory (GB, the process and its children together) of a
+    fresh process."""
+    import psutil
+
     clock = time.perf_counter()
     environment = {**os.environ, "PYTHONPATH": str(ROOT), "OPENBLAS_NUM_THREADS": "1"}
-    subprocess.run([sys.executable, *arguments], check=True, capture_output=True,
-                   env=environment, cwd=ROOT)  # fmt: skip
+    process = subprocess.Popen([sys.executable, *arguments], env=environment, cwd=ROOT,
+                               stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)  # fmt: skip
+    watched, peak = psutil.Process(process.pid), 0
+    while process.poll() is None:
+        try:
+            tree = [watched, *watched.children(recursive=True)]
+            peak = max(peak, sum(p.memory_info().rss for p in tree))
+        except psutil.Error:  # a process ended while being read
+            pass
+        time.sleep(0.1)
     seconds = time.perf_counter() - clock
-    peak = max(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss, before)
-    return seconds, peak / 1024**2
+    if process.returncode:
+        raise SystemExit(process.stderr.read().decode())
+    return seconds, peak / 1e9
 
 
 def main() -> None:

@@ -58,3 +58,29 @@ def compare_hospital_files(paths: list[Path], out: Path | None, overwrite: bool,
     click.echo(terminal_glance(comparison.glance))
     click.echo(CAUTION)
     click.echo(f"wrote {target}/comparison.html")
+
+
+def size_hospital_file(path: Path, out: Path | None, overwrite: bool, sizing, options) -> None:
+    """Beds per ward for a hospital target (``sizing``: target, total or None)."""
+    from planner.hospital.scenario import load_hospital
+    from planner.hospital.sizing import size_hospital
+    from planner.outputs import atomic_folder, default_folder
+    from planner.report.hospital_sizing_report import sentence, write_hospital_sizing_files
+    from planner.report.html import CAUTION
+
+    target, total = sizing
+    scenario = load_hospital(path)
+    stated = "" if target is not None else " (by default)"
+    target = 0.05 if target is None else target
+    what = f"shares {total} beds" if total is not None else "needs the fewest beds"
+    goal = f"some patient finds no bed anywhere at or under {target:.0%}{stated}"
+    click.echo(f"{scenario.name}: the split of beds that {what}, keeping the weekly chance that "
+               f"{goal}")  # fmt: skip
+    target_folder = out if out is not None else default_folder(scenario.name, "size")
+    with atomic_folder(target_folder, overwrite) as folder:
+        result = size_hospital(scenario, target, total, options)
+        write_hospital_sizing_files(result, folder)
+    click.echo(result.steps.to_string(index=False, float_format=lambda v: f"{v:.3f}"))
+    click.echo(sentence(result))
+    click.echo(CAUTION)
+    click.echo(f"wrote {target_folder}/sizing.html")

@@ -15,6 +15,7 @@ from planner.cli.base import (
     simulation_options,
     user_errors,
 )
+from planner.errors import PlannerError
 from planner.schema import choices
 
 
@@ -65,6 +66,13 @@ def _worst_weeks(result) -> str:
     help="Largest acceptable chance of a shift short of nurses (default: the scenario's, "
     "else 0.05).",
 )
+@click.option(
+    "--total",
+    type=click.IntRange(min=1),
+    default=None,
+    help="Hospital files only: share this many beds between the wards (default: find the "
+    "total the target needs).",
+)
 @simulation_options
 @user_errors
 def size(
@@ -76,13 +84,28 @@ def size(
     measure,
     target,
     shift_target,
+    total,
     engine,
     jobs,
     scheduler,
 ) -> None:
     """Find the fewest beds, and nurses per shift and weekday, that keep a risk under a target
     in every forecast week, beside the classical sizes: sizing.csv, roster.csv, a chart,
-    sizing.html."""
+    sizing.html. Given a hospital file: the beds per ward that keep the weekly chance that
+    some patient finds no bed anywhere under the target (--target, default 0.05), for the
+    fewest beds or sharing --total beds."""
+    from planner.hospital.scenario import is_hospital_file
+
+    if is_hospital_file(scenario):
+        from planner.cli.hospital import size_hospital_file
+
+        if measure is not None or shift_target is not None:
+            raise PlannerError("size: --measure and --shift-target are for ward scenarios; a "
+                               "hospital is sized on the chance of no bed anywhere")  # fmt: skip
+        options = run_options(paths, seed, engine, jobs, scheduler)
+        return size_hospital_file(scenario, out, overwrite, (target, total), options)
+    if total is not None:
+        raise PlannerError("size: --total is for hospital files (wards listed with [[ward]])")
     from planner.outputs import atomic_folder
     from planner.report.html import CAUTION
     from planner.report.sizing_report import roster_view, sentence, write_sizing_files
