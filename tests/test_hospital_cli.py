@@ -128,3 +128,17 @@ def test_compare_refuses_plans_that_cannot_be_paired(tmp_path):
     ward = DEMO / "baseline.toml"
     result = CliRunner().invoke(cli, ["compare", str(base), str(ward), "--out", str(out)])
     assert result.exit_code == 2 and "only hospital files or only ward scenarios" in result.output
+
+
+def test_check_describes_every_ward_and_the_rules(tmp_path):
+    result = CliRunner().invoke(cli, ["check", str(hospital(tmp_path, LINKED))])
+    assert result.exit_code == 0, result.output
+    assert "hospital: hospital, 2 wards" in result.output
+    assert "ward Alder (surgical_ward.toml):" in result.output
+    assert "outlying: Larch patients may outlie to Alder" in result.output
+
+
+def test_one_ward_commands_refuse_a_hospital_file(tmp_path):
+    result = CliRunner().invoke(cli, ["forecast", str(hospital(tmp_path, QUICK))])
+    assert result.exit_code == 2 and "a hospital file" in result.output
+    assert len(result.output.strip().splitlines()) == 1

@@ -109,8 +109,15 @@ def cli() -> None:
 
 
 def load_plan(scenario_path: Path | None):
+    from planner.hospital.scenario import is_hospital_file
     from planner.runs.run import load_history
     from planner.scenario import load_scenario
+
+    if is_hospital_file(scenario_path):
+        raise PlannerError(
+            f"{scenario_path}: a hospital file (wards listed with [[ward]]); this command takes "
+            f"one ward's scenario: give a ward's file, or use run, compare, size or check"
+        )
 
     scenario = load_scenario(scenario_path)
     return scenario, load_history(scenario)

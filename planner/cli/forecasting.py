@@ -19,9 +19,17 @@ from planner.cli.base import (
 @scenario_argument
 @user_errors
 def check(scenario: Path | None) -> None:
-    """Validate a scenario file and its input files without running anything."""
+    """Validate a scenario file (or a hospital file and each of its wards) and its input files
+    without running anything."""
+    from planner.hospital.scenario import is_hospital_file
     from planner.runs.run import check_scenario
 
+    if is_hospital_file(scenario):
+        from planner.cli.hospital import check_hospital_file
+
+        for line in check_hospital_file(scenario):
+            click.echo(line)
+        return
     for line in check_scenario(scenario):
         click.echo(line)
 

@@ -84,3 +84,22 @@ def size_hospital_file(path: Path, out: Path | None, overwrite: bool, sizing, op
     click.echo(sentence(result))
     click.echo(CAUTION)
     click.echo(f"wrote {target_folder}/sizing.html")
+
+
+def check_hospital_file(path: Path) -> list[str]:
+    """What ``planner check`` says of a hospital file: each ward's check, then the rules."""
+    from planner.hospital.run import load_histories
+    from planner.hospital.scenario import load_hospital
+    from planner.runs.run import check_scenario
+
+    scenario = load_hospital(path)
+    histories = load_histories(scenario)
+    first = histories[0].start.date()
+    lines = [f"{scenario.source}: ok", f"hospital: {scenario.name}, {len(scenario.names)} wards",
+             f"forecast: {scenario.horizon_weeks} weeks from {first}, {scenario.paths} paths, "
+             f"seed {scenario.seed} (the hospital's, for every ward)"]  # fmt: skip
+    for name, ward in zip(scenario.names, scenario.scenarios, strict=True):
+        lines.append(f"ward {name} ({ward.source.name}):")
+        lines += [f"  {line}" for line in check_scenario(ward.source, ward)[1:]]
+    lines += [f"outlying: {line}" for line in scenario.describe_outlying()]
+    return lines

@@ -126,9 +126,10 @@ def check_patients_fit_beds(scenario: Scenario, history: WardHistory) -> None:
     )
 
 
-def check_scenario(path: Path | None) -> list[str]:
-    """Validate a scenario and its files; lines describing what was found."""
-    scenario = load_scenario(path)
+def check_scenario(path: Path | None, scenario: Scenario | None = None) -> list[str]:
+    """Validate a scenario and its files; lines describing what was found (``scenario``:
+    the one read from ``path`` already, with changes a hospital file made to it)."""
+    scenario = load_scenario(path) if scenario is None else scenario
     history = load_history(scenario)
     lines = [
         f"{scenario.source}: ok",
