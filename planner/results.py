@@ -12,10 +12,14 @@ import numpy as np
 import pandas as pd
 
 from planner.forecast.result import ForecastResult
+from planner.hospital.model import HospitalModel
+from planner.hospital.result import HospitalResult
 from planner.records.ward_history import WardHistory
 from planner.scenario import Scenario
+from planner.scenario_hospital import HospitalScenario
 from planner.simulate.model import WardModel
 from planner.simulate.result import WardResult
+from planner.summaries.hospital import HospitalWeeks
 from planner.summaries.sizing import ClassicalSizes, SizingTarget
 from planner.summaries.weekly import Outlook, WeeklyPaths
 
@@ -137,3 +141,57 @@ class HindcastQuote:
     origins: int
     created: str
     coverage_80: float
+
+
+@dataclass(frozen=True)
+class HospitalRun:
+    """Everything a hospital run produced: one :class:`planner.results.RunResult` per ward
+    (hospital order), the hospital model and result, the weekly measures and tables
+    (:mod:`planner.summaries.hospital`), and ``forecast_note``: a correlation the forecasts
+    could not keep ("" when none)."""
+
+    scenario: HospitalScenario
+    wards: tuple[RunResult, ...]
+    model: HospitalModel
+    result: HospitalResult
+    weeks: HospitalWeeks
+    table: pd.DataFrame
+    outlying: pd.DataFrame
+    placements: pd.DataFrame
+    forecast_note: str
+    paths: int
+    seed: int
+    timings: dict[str, float]
+
+
+@dataclass(frozen=True)
+class HospitalComparison:
+    """The plans' runs (the first is the reference), the weekly comparison table and the
+    glance table (one row per plan over the horizon)."""
+
+    runs: tuple[HospitalRun, ...]
+    table: pd.DataFrame
+    glance: pd.DataFrame
+
+
+@dataclass(frozen=True)
+class HospitalSizing:
+    """``beds``: beds per ward found (hospital order); ``risk`` and ``risk_se``: the highest
+    weekly chance of some patient finding no bed anywhere, at those beds; ``no_bed``: the
+    expected patients finding no bed anywhere over the forecast; ``met``: the target holds;
+    ``steps``: one row per step (what changed, the beds, total, risk, unmet); ``least_gain``:
+    the least saving a move between wards had to make."""
+
+    scenario: HospitalScenario
+    target: float
+    total: int | None
+    start_beds: tuple[int, ...]
+    beds: tuple[int, ...]
+    risk: float
+    risk_se: float
+    unmet: float
+    met: bool
+    steps: pd.DataFrame
+    least_gain: float
+    paths: int
+    seed: int

@@ -7,9 +7,9 @@ code; DEVELOPERS.md, "How data flows"):
 
 * the runs (``planner.runs``) and the reports (``planner.report``) never import each other:
   runs produce result objects (``planner.results``) and reports read them;
-* the numerics (``planner.forecast``, ``planner.simulate``, ``planner.summaries``) and the
-  ward's records (``planner.records``) import neither the scenario reader nor the command line,
-  the runs or the reports;
+* the numerics (``planner.forecast``, ``planner.simulate``, ``planner.summaries``,
+  ``planner.hospital``) and the ward's records (``planner.records``) import neither the
+  scenario reader nor the command line, the runs or the reports;
 * no loop between rooms;
 * no function outside the click commands takes more than 8 parameters.
 """
@@ -23,8 +23,10 @@ import pytest
 
 PACKAGE = Path(__file__).resolve().parents[1] / "planner"
 MOST_PARAMETERS = 8
-READER = {"planner.scenario", "planner.scenario_history", "planner.schema_checks"}
-NUMERICS = ("planner.forecast", "planner.simulate", "planner.summaries", "planner.records")
+READER = {"planner.scenario", "planner.scenario_history", "planner.schema_checks",
+          "planner.scenario_hospital"}  # fmt: skip
+NUMERICS = ("planner.forecast", "planner.simulate", "planner.summaries", "planner.records",
+            "planner.hospital")  # fmt: skip
 
 
 def module_name(path: Path) -> str:

@@ -10,7 +10,7 @@ import pytest
 from click.testing import CliRunner
 
 from planner.cli import cli
-from planner.hospital.scenario import is_hospital_file, load_hospital
+from planner.scenario_hospital import is_hospital_file, load_hospital
 
 DEMO = Path(__file__).resolve().parents[1] / "scenarios"
 PATHS = "60"

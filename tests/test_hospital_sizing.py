@@ -12,8 +12,8 @@ from click.testing import CliRunner
 from wards import ROTA
 
 from planner.cli import cli
-from planner.hospital.scenario import load_hospital
-from planner.hospital.sizing import size_hospital
+from planner.runs.hospital_sizing import size_hospital
+from planner.scenario_hospital import load_hospital
 from planner.simulate.model import RunOptions
 
 

@@ -109,9 +109,9 @@ def cli() -> None:
 
 
 def load_plan(scenario_path: Path | None):
-    from planner.hospital.scenario import is_hospital_file
     from planner.runs.run import load_history
     from planner.scenario import load_scenario
+    from planner.scenario_hospital import is_hospital_file
 
     if is_hospital_file(scenario_path):
         raise PlannerError(

@@ -21,8 +21,8 @@ from planner.cli.base import (
 def check(scenario: Path | None) -> None:
     """Validate a scenario file (or a hospital file and each of its wards) and its input files
     without running anything."""
-    from planner.hospital.scenario import is_hospital_file
     from planner.runs.run import check_scenario
+    from planner.scenario_hospital import is_hospital_file
 
     if is_hospital_file(scenario):
         from planner.cli.hospital import check_hospital_file

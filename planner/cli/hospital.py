@@ -10,11 +10,11 @@ import click
 
 def run_hospital_file(path: Path, out: Path | None, overwrite: bool, options) -> None:
     """Forecast, simulate and report a hospital; print its weekly table and headline."""
-    from planner.hospital.run import load_histories, run_hospital
-    from planner.hospital.scenario import load_hospital
     from planner.outputs import atomic_folder, default_folder
     from planner.report.hospital_report import headline, terminal_table, write_hospital_files
     from planner.report.html import CAUTION
+    from planner.runs.hospital import load_histories, run_hospital
+    from planner.scenario_hospital import load_hospital
 
     scenario = load_hospital(path)
     histories = load_histories(scenario)
@@ -44,11 +44,11 @@ def run_hospital_file(path: Path, out: Path | None, overwrite: bool, options) ->
 def compare_hospital_files(paths: list[Path], out: Path | None, overwrite: bool, options) -> None:
     """Compare hospital plans paired; print the glance table."""
     from planner.cli.base import progress_bar
-    from planner.hospital.compare import compare_hospitals
-    from planner.hospital.scenario import load_hospital
     from planner.outputs import atomic_folder, default_folder
     from planner.report.hospital_compare_report import terminal_glance, write_hospital_compare_files
     from planner.report.html import CAUTION
+    from planner.runs.hospital_compare import compare_hospitals
+    from planner.scenario_hospital import load_hospital
 
     first = load_hospital(paths[0])
     target = out if out is not None else default_folder(first.name, "compare")
@@ -62,11 +62,11 @@ def compare_hospital_files(paths: list[Path], out: Path | None, overwrite: bool,
 
 def size_hospital_file(path: Path, out: Path | None, overwrite: bool, sizing, options) -> None:
     """Beds per ward for a hospital target (``sizing``: target, total or None)."""
-    from planner.hospital.scenario import load_hospital
-    from planner.hospital.sizing import size_hospital
     from planner.outputs import atomic_folder, default_folder
     from planner.report.hospital_sizing_report import sentence, write_hospital_sizing_files
     from planner.report.html import CAUTION
+    from planner.runs.hospital_sizing import size_hospital
+    from planner.scenario_hospital import load_hospital
 
     target, total = sizing
     scenario = load_hospital(path)
@@ -88,9 +88,9 @@ def size_hospital_file(path: Path, out: Path | None, overwrite: bool, sizing, op
 
 def check_hospital_file(path: Path) -> list[str]:
     """What ``planner check`` says of a hospital file: each ward's check, then the rules."""
-    from planner.hospital.run import load_histories
-    from planner.hospital.scenario import load_hospital
+    from planner.runs.hospital import load_histories
     from planner.runs.run import check_scenario
+    from planner.scenario_hospital import load_hospital
 
     scenario = load_hospital(path)
     histories = load_histories(scenario)

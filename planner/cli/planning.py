@@ -55,8 +55,8 @@ def run(scenario: Path | None, out, overwrite, paths, seed, engine, jobs, schedu
     """Forecast, simulate and report: weekly.csv, charts, report.html, run.json. Given a
     hospital file (wards listed with [[ward]]), the wards run together with their outlying
     rules: hospital.csv, outlying.csv, placements.csv, report.html and each ward's files."""
-    from planner.hospital.scenario import is_hospital_file
     from planner.outputs import DEFAULT_ROOT, atomic_folder
+    from planner.scenario_hospital import is_hospital_file
 
     if is_hospital_file(scenario):
         from planner.cli.hospital import run_hospital_file
@@ -105,11 +105,11 @@ def compare(
 ) -> None:
     """Compare ward plans (the first is the reference) with common random numbers:
     comparison.csv, costs.csv, a chart and comparison.html."""
-    from planner.hospital.scenario import is_hospital_file
     from planner.outputs import atomic_folder, default_folder
     from planner.report.compare_report import write_compare_files
     from planner.runs.compare import compare_scenarios
     from planner.scenario import load_scenario
+    from planner.scenario_hospital import is_hospital_file
 
     hospitals = [is_hospital_file(path) for path in scenarios]
     if any(hospitals):

@@ -94,7 +94,7 @@ def size(
     sizing.html. Given a hospital file: the beds per ward that keep the weekly chance that
     some patient finds no bed anywhere under the target (--target, default 0.05), for the
     fewest beds or sharing --total beds."""
-    from planner.hospital.scenario import is_hospital_file
+    from planner.scenario_hospital import is_hospital_file
 
     if is_hospital_file(scenario):
         from planner.cli.hospital import size_hospital_file

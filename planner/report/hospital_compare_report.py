@@ -8,10 +8,10 @@ from pathlib import Path
 
 import pandas as pd
 
-from planner.hospital.compare import HospitalComparison
 from planner.report import first_screen, html
 from planner.report.files import write_csv
 from planner.report.hospital_report import ward_folder, write_hospital_files
+from planner.results import HospitalComparison
 
 #: The glance table's measures and their words.
 GLANCE = {

@@ -15,10 +15,10 @@ from pathlib import Path
 
 import pandas as pd
 
-from planner.hospital.run import HospitalRun
 from planner.report import first_screen, html
 from planner.report.files import run_record, write_csv, write_json
 from planner.report.run_report import write_run_files
+from planner.results import HospitalRun
 from planner.summaries.hospital import hospital_outlook
 from planner.summaries.weekly import HEADLINE_WEEKS
 

@@ -6,9 +6,9 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from planner.hospital.sizing import LEAST_GAIN, HospitalSizing
 from planner.report import html
 from planner.report.files import run_record, write_csv, write_json
+from planner.results import HospitalSizing
 
 
 def _split(names, beds) -> str:
@@ -45,8 +45,8 @@ def write_hospital_sizing_files(result: HospitalSizing, folder: Path) -> None:
     how = ("Each step adds, takes away or moves one bed, judged by the patients left without "
            "a bed (no bed anywhere, or a cancelled planned admission), on the same forecast "
            f"paths and random numbers for every split; a move between wards must save at least "
-           f"{LEAST_GAIN:g} patient over the forecast. Greedy steps find a good split, not a "
-           "proven best one. Only the base beds change; dated bed changes stay.")  # fmt: skip
+           f"{result.least_gain:g} patient over the forecast. Greedy steps find a good split, "
+           "not a proven best one. Only the base beds change; dated bed changes stay.")  # fmt: skip
     sections = [
         ("", f'<p class="headline">{html.escape(sentence(result))}</p>'),
         ("The search, step by step", html.table(steps) + f"<p>{html.escape(how)}</p>"),

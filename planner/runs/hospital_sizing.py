@@ -28,7 +28,7 @@ gives them.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import replace
 
 import numpy as np
 import pandas as pd
@@ -36,11 +36,12 @@ import pandas as pd
 from planner.errors import PlannerError
 from planner.hospital.fast import simulate_drawn
 from planner.hospital.model import HospitalModel
-from planner.hospital.run import forecast_wards_step, load_histories
 from planner.hospital.sampling import draw_hospital
-from planner.hospital.scenario import HospitalScenario
+from planner.results import HospitalSizing
+from planner.runs.hospital import forecast_wards_step, load_histories
 from planner.runs.run import Streams
 from planner.runs.ward_model import ward_model
+from planner.scenario_hospital import HospitalScenario
 from planner.simulate.model import RunOptions
 from planner.summaries.hospital import hospital_weeks
 from planner.summaries.monte_carlo import share_se
@@ -50,27 +51,6 @@ MOST_STEPS = 400
 #: Least gain for moving a bed between wards: patients left without a bed over the forecast
 #: (a judgement: moving a staffed bed for less is not worth the disruption).
 LEAST_GAIN = 1.0
-
-
-@dataclass(frozen=True)
-class HospitalSizing:
-    """``beds``: beds per ward found (hospital order); ``risk`` and ``risk_se``: the highest
-    weekly chance of some patient finding no bed anywhere, at those beds; ``no_bed``: the
-    expected patients finding no bed anywhere over the forecast; ``met``: the target holds;
-    ``steps``: one row per step (what changed, the beds, total, risk, no_bed)."""
-
-    scenario: HospitalScenario
-    target: float
-    total: int | None
-    start_beds: tuple[int, ...]
-    beds: tuple[int, ...]
-    risk: float
-    risk_se: float
-    unmet: float
-    met: bool
-    steps: pd.DataFrame
-    paths: int
-    seed: int
 
 
 class _Evaluator:
@@ -163,7 +143,7 @@ def size_hospital(
     return HospitalSizing(
         scenario=scenario, target=target, total=total, start_beds=start, beds=beds, risk=risk,
         risk_se=se, unmet=unmet, met=risk <= target, steps=pd.DataFrame(rows),
-        paths=options.paths, seed=options.seed,
+        least_gain=LEAST_GAIN, paths=options.paths, seed=options.seed,
     )  # fmt: skip
 
 

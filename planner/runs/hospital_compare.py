@@ -11,16 +11,16 @@ settings differ from the first plan's (they would not share the forecasts).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
 from planner.errors import PlannerError
-from planner.hospital.run import HospitalRun, load_histories, run_hospital
-from planner.hospital.scenario import HospitalScenario, load_hospital
+from planner.results import HospitalComparison, HospitalRun
 from planner.runs.compare import _difference, _records_key
+from planner.runs.hospital import load_histories, run_hospital
+from planner.scenario_hospital import HospitalScenario, load_hospital
 from planner.simulate.model import RunOptions
 from planner.summaries.comparison import difference
 from planner.summaries.monte_carlo import mean_se, share_se
@@ -35,16 +35,6 @@ MEASURES = {
     "expected_outlier_bed_days": lambda w: w.outlier_bed_days.sum(axis=1),
     "expected_cancelled_with_outliers": lambda w: w.cancelled_with_outliers.sum(axis=1),
 }
-
-
-@dataclass(frozen=True)
-class HospitalComparison:
-    """The plans' runs (the first is the reference), the weekly comparison table and the
-    glance table (one row per plan over the horizon)."""
-
-    runs: tuple[HospitalRun, ...]
-    table: pd.DataFrame
-    glance: pd.DataFrame
 
 
 def check_paired(plans: list[HospitalScenario]) -> None:

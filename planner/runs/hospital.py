@@ -13,49 +13,25 @@ take its beds.
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass
 
 import numpy as np
-import pandas as pd
 
 from planner.errors import PlannerError
 from planner.hospital.model import HospitalModel
 from planner.hospital.result import HospitalResult
-from planner.hospital.scenario import HospitalScenario
 from planner.records.ward_history import WardHistory
-from planner.results import RunResult
+from planner.results import HospitalRun, RunResult
 from planner.runs.run import Streams, load_history, summarise_run
 from planner.runs.ward_model import ward_model
+from planner.scenario_hospital import HospitalScenario
 from planner.simulate.model import RunOptions
 from planner.summaries.hospital import (
-    HospitalWeeks,
     hospital_table,
     hospital_weeks,
     outlying_table,
     placements,
 )
 from planner.summaries.weekly import weekly_paths
-
-
-@dataclass(frozen=True)
-class HospitalRun:
-    """Everything a hospital run produced: one :class:`planner.results.RunResult` per ward
-    (hospital order), the hospital model and result, the weekly measures and tables
-    (:mod:`planner.summaries.hospital`), and ``forecast_note``: a correlation the forecasts
-    could not keep ("" when none)."""
-
-    scenario: HospitalScenario
-    wards: tuple[RunResult, ...]
-    model: HospitalModel
-    result: HospitalResult
-    weeks: HospitalWeeks
-    table: pd.DataFrame
-    outlying: pd.DataFrame
-    placements: pd.DataFrame
-    forecast_note: str
-    paths: int
-    seed: int
-    timings: dict[str, float]
 
 
 def load_histories(scenario: HospitalScenario) -> tuple[WardHistory, ...]:
