@@ -99,18 +99,22 @@ class HospitalScenario:
         return lines
 
 
-def is_hospital_file(path: str | Path | None) -> bool:
-    """Whether ``path`` is a hospital file (it has ``[[ward]]`` tables or extends one)."""
+def is_hospital_file(path: str | Path | None, seen: frozenset[Path] = frozenset()) -> bool:
+    """Whether ``path`` is a hospital file (it has ``[[ward]]`` tables or extends one); a
+    file that cannot be read, or a cycle of ``extends``, is left to the scenario reader."""
     if path is None or Path(path).suffix.lower() != ".toml" or not Path(path).is_file():
         return False
+    where = Path(path).resolve()
+    if where in seen:
+        return False
     try:
-        document = tomllib.loads(Path(path).read_text(encoding="utf-8"))
+        document = tomllib.loads(where.read_text(encoding="utf-8"))
     except (tomllib.TOMLDecodeError, UnicodeDecodeError):
         return False
     if "ward" in document:
         return True
     parent = document.get("extends")
-    return isinstance(parent, str) and is_hospital_file(Path(path).parent / parent)
+    return isinstance(parent, str) and is_hospital_file(where.parent / parent, seen | {where})
 
 
 def _read(path: Path, seen: tuple[Path, ...] = ()) -> dict[str, Any]:

@@ -12,7 +12,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from planner.simulate.fast import COUNTED as WARD_COUNTED
+from planner.simulate.result import COUNTED as WARD_COUNTED
 from planner.simulate.result import PATH_DAILY, PATH_SHIFTS, WardResult, ward_result
 
 #: Per path, ward and day (int32, patients): ``outliers_placed`` (the ward's patients placed on

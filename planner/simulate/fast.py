@@ -24,16 +24,13 @@ import numpy as np
 from planner.simulate.compiled import compiled, compiled_inline
 from planner.simulate.discharge_times import discharge_at, tables_for
 from planner.simulate.model import WardModel, beds_open_by_day, check_arrivals
-from planner.simulate.result import WardResult, ward_result
+from planner.simulate.result import COUNTED, WardResult, ward_result
 from planner.simulate.sampling import DrawnInputs, draw_inputs
 
 #: Most new patients whose random inputs are held at once: a chunk of paths is drawn and
 #: simulated in blocks of about this many patients (about 50 MB of inputs), so memory does not
 #: grow with the chunk and the inputs stay close to the processor's cache.
 BLOCK_PATIENTS = 1_000_000
-#: Rows of the integer daily records, in this order (wait hours are kept apart, as floats).
-COUNTED = ("census", "peak_occupancy", "admissions", "bed_admissions", "discharges",
-           "waited", "diverted", "queue", "planned_admissions", "cancelled")  # fmt: skip
 _CENSUS, _PEAK, _ADMISSIONS, _BED_ADMISSIONS, _DISCHARGES, _WAITED, _DIVERTED, _QUEUE = range(8)
 _PLANNED, _CANCELLED = 8, 9
 

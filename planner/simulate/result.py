@@ -24,6 +24,10 @@ DAILY_COLUMNS = (
 )  # fmt: skip
 #: Daily measures stored per path (beds_open is the same on every path).
 PATH_DAILY = tuple(name for name in DAILY_COLUMNS if name != "beds_open")
+#: Rows of the engines' integer daily records, in this order (wait hours are kept apart, as
+#: floats).
+COUNTED = ("census", "peak_occupancy", "admissions", "bed_admissions", "discharges",
+           "waited", "diverted", "queue", "planned_admissions", "cancelled")  # fmt: skip
 #: Per-shift measures stored per path.
 PATH_SHIFTS = ("shift_peak_occupancy", "nurses_required", "shortfall")
 
