@@ -45,7 +45,7 @@ def test_run_writes_the_hospital_and_every_ward(tmp_path):
     assert "Larch patients may outlie to Alder" in result.output
     assert "professional judgement" in result.output
     assert {"hospital.csv", "outlying.csv", "placements.csv", "report.html", "run.json",
-            "wards"} == {p.name for p in out.iterdir()}  # fmt: skip
+            "wards", "no_bed.png"} == {p.name for p in out.iterdir()}  # fmt: skip
     assert {"Larch", "Alder"} == {p.name for p in (out / "wards").iterdir()}
     assert (out / "wards" / "Alder" / "weekly.csv").is_file()
     table = pd.read_csv(out / "hospital.csv")

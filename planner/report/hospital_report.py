@@ -1,11 +1,11 @@
 """The hospital report: files, terminal lines and the page written by ``planner run`` on a
 hospital file.
 
-Folder layout: ``report.html`` (the hospital page), ``hospital.csv`` (one row per week for the
-whole hospital), ``outlying.csv`` (one row per ward and week), ``placements.csv`` (outliers
-placed over the forecast, home ward by host ward), ``run.json``, and ``wards/<name>/`` with
-each ward's files as ``planner run`` writes them for one ward (their numbers include what
-outlying did to the ward). Columns: docs/hospital.md.
+Folder layout: ``report.html`` (the hospital page) and its chart ``no_bed.png``,
+``hospital.csv`` (one row per week for the whole hospital), ``outlying.csv`` (one row per ward
+and week), ``placements.csv`` (outliers placed over the forecast, home ward by host ward),
+``run.json``, and ``wards/<name>/`` with each ward's files as ``planner run`` writes them for
+one ward (their numbers include what outlying did to the ward). Columns: docs/hospital.md.
 """
 
 from __future__ import annotations
@@ -17,6 +17,7 @@ import pandas as pd
 
 from planner.report import first_screen, html
 from planner.report.files import run_record, write_csv, write_json
+from planner.report.hospital_charts import no_bed_by_week
 from planner.report.run_report import write_run_files
 from planner.results import HospitalRun
 from planner.summaries.hospital import hospital_outlook
@@ -106,7 +107,7 @@ def _placements(run: HospitalRun) -> pd.DataFrame:
     return frame.reset_index().rename(columns={"home": "home ward \\ host ward"})
 
 
-def hospital_page(run: HospitalRun) -> str:
+def hospital_page(run: HospitalRun, picture: bytes) -> str:
     scenario = run.scenario
     start = run.wards[0].history.start
     last = start + pd.Timedelta(days=scenario.horizon_days - 1)
@@ -124,6 +125,7 @@ def hospital_page(run: HospitalRun) -> str:
         forecast += " " + run.forecast_note
     sections = [
         ("", f'<p class="headline">{html.escape(headline(run))}</p>'),
+        ("Chance of no bed anywhere", html.image(picture, "weekly chance of no bed anywhere")),
         ("Wards", html.table(ward_lines(run)) + f"<ul>{links}</ul>"),
         ("Week by week, the whole hospital", html.table(_page_table(run.table))
          + "<p>Chances are shares of the simulated paths, ± 1 Monte Carlo standard error; "
@@ -179,7 +181,9 @@ def write_hospital_files(run: HospitalRun, folder: Path, jobs: int = 1) -> None:
     write_csv(run.outlying, folder / "outlying.csv")
     write_csv(run.placements.reset_index(), folder / "placements.csv")
     _write_wards(run, folder, jobs)
-    (folder / "report.html").write_text(hospital_page(run))
+    picture = no_bed_by_week(run)
+    (folder / "no_bed.png").write_bytes(picture)
+    (folder / "report.html").write_text(hospital_page(run, picture))
     inputs = sorted({path for ward in run.scenario.scenarios
                      for path in (ward.admissions_file, ward.episodes_file) if path})  # fmt: skip
     resolved = {"name": run.scenario.name, "wards": dict(zip(run.scenario.names,
