@@ -65,6 +65,41 @@ def test_pinball_brier_and_reliability_by_hand():
     assert list(table["observed_frequency"]) == [0.5, 0.0, 1.0]
 
 
+def test_naive_chance_and_brier_by_hand():
+    # History 10, 11, 13, 12, 14; census at the origin 12; 15 beds open; recorded census 14 on
+    # horizon day 1 and 12 on day 2. 1-day changes 1, 2, -1, 2 give 13, 14, 11, 14 from 12;
+    # 2-day changes 3, 1, 1 give 15, 13, 13.
+    # Above beds - 2 = 13: day 1 2 of 4 = 1/2, day 2 1 of 3 = 1/3; outcomes 1 (14 > 13), 0.
+    # Above beds = 15: day 1 0 of 4, day 2 0 of 3 (15 is not above 15); outcomes 0, 0.
+    # Above beds - 4 = 11: day 1 3 of 4, day 2 3 of 3; outcomes 1, 1.
+    history = np.array([10, 11, 13, 12, 14])
+    chance = scores.naive_chance_above(history, 12, [13, 13])
+    np.testing.assert_allclose(chance, [1 / 2, 1 / 3])
+    np.testing.assert_allclose(scores.naive_chance_above(history, 12, [15, 15]), [0, 0])
+    np.testing.assert_allclose(scores.naive_chance_above(history, 12, [11, 11]), [3 / 4, 1])
+    # Source: Brier (1950), mean of (p - o)^2. Naive, above beds - 2: ((1/2 - 1)^2 +
+    # (1/3 - 0)^2) / 2 = (1/4 + 1/9) / 2 = 13/72; above beds: 0; above beds - 4:
+    # ((3/4 - 1)^2 + 0) / 2 = 1/32. The model's chances 0.9 and 0.2 above beds - 2:
+    # (0.01 + 0.04) / 2 = 0.025, skill 1 - 0.025 / (13/72) = 1 - 1.8/13 = 11.2/13.
+    bands = {f"{who}_{side}{p}": [0.0, 0.0] for who in ("model", "naive")
+             for side in ("lo", "hi") for p in scores.INTERVALS}  # fmt: skip
+    table = pd.DataFrame({
+        "origin": ["2026-01-05"] * 2, "horizon_week": [1, 1], "census": [14, 12],
+        "beds_open": [15, 15], "model_pinball": [1.0, 1.0], "naive_pinball": [2.0, 2.0], **bands,
+        "p_over_beds": [0.0, 0.0], "naive_p_over_beds": [0.0, 0.0],
+        "p_over_beds_minus_2": [0.9, 0.2], "naive_p_over_beds_minus_2": [1 / 2, 1 / 3],
+        "p_over_beds_minus_4": [1.0, 1.0], "naive_p_over_beds_minus_4": [3 / 4, 1.0],
+    })  # fmt: skip
+    thresholds = {"p_over_beds": 0, "p_over_beds_minus_2": 2, "p_over_beds_minus_4": 4}
+    overall = scores.summary_by_week(table, thresholds).iloc[0]
+    assert overall["naive_brier_over_beds_minus_2"] == pytest.approx(13 / 72)
+    assert overall["model_brier_over_beds_minus_2"] == pytest.approx(0.025)
+    assert overall["brier_skill_over_beds_minus_2"] == pytest.approx(11.2 / 13)
+    assert overall["naive_brier_over_beds"] == 0 and np.isnan(overall["brier_skill_over_beds"])
+    assert overall["naive_brier_over_beds_minus_4"] == pytest.approx(1 / 32)
+    assert overall["model_brier_over_beds_minus_4"] == 0
+
+
 def test_naive_quantiles_are_census_changes():
     census = np.array([10, 11, 13, 12, 14])
     # By hand: 1-day changes 1, 2, -1, 2 (median 1.5); 2-day changes 3, 1, 1 (median 1).
@@ -210,6 +245,12 @@ def test_hindcast_command_and_the_run_report_quotes_it(tmp_path):
     )
     assert hindcast.exit_code == 0, hindcast.output
     assert "80% census band of this setup held" in hindcast.output
+    summary = pd.read_csv(runs / "h" / "hindcast_summary.csv").iloc[0]
+    lines = hindcast.output.splitlines()
+    for words, name in (("beds - 2", "over_beds_minus_2"), ("beds - 4", "over_beds_minus_4")):
+        line = next(text for text in lines if f"Brier score, census above {words} (" in text)
+        model, naive = summary[f"model_brier_{name}"], summary[f"naive_brier_{name}"]
+        assert f"model {model:.4f}, naive baseline {naive:.4f}; " in line
     assert {"hindcast.csv", "hindcast.html", "pit.png", "coverage.png"} <= {
         p.name for p in (runs / "h").iterdir()
     }

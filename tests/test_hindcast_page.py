@@ -7,6 +7,7 @@ import pandas as pd
 import pytest
 
 from planner.report.hindcast_report import headline, hindcast_page
+from planner.report.hindcast_tables import brier_lines
 from planner.results import HindcastResult
 
 
@@ -22,9 +23,12 @@ def _result(model_pinball: float, coverage_80: float, p_value: float) -> Hindcas
             "model_pinball": [model_pinball] * 2,
             "naive_pinball": [2.0, 2.0],
             "pinball_skill": [1 - model_pinball / 2.0] * 2,
-            "brier_over_beds": [0.0, 0.0],
-            "brier_over_beds_minus_2": [0.1, 0.1],
-            "brier_over_beds_minus_4": [0.2, 0.2],
+            "model_brier_over_beds": [0.0, 0.0],
+            "naive_brier_over_beds": [0.01, 0.01],
+            "model_brier_over_beds_minus_2": [0.1, 0.1],
+            "naive_brier_over_beds_minus_2": [0.12, 0.12],
+            "model_brier_over_beds_minus_4": [0.2, 0.2],
+            "naive_brier_over_beds_minus_4": [0.15, 0.15],
         }
     )  # fmt: skip
     reliability = pd.DataFrame(
@@ -70,3 +74,26 @@ def test_calibration_warning_leads_the_page_and_tables_read_plainly():
     assert "census above beds - 2" in page and "10% to 20%" in page
     quiet = hindcast_page(_result(1.5, 0.81, 0.3), {"coverage.png": b"", "pit.png": b""})
     assert "Calibration warning" not in quiet
+
+
+def test_brier_lines_name_both_scores_and_the_lower():
+    overall = _result(1.5, 0.81, 0.3).overall().copy()
+    lines = brier_lines(overall)
+    assert lines == [
+        "Brier score, census above beds (0 is perfect, lower is better): model 0.0000, naive "
+        "baseline 0.0100; the model's is lower.",
+        "Brier score, census above beds - 2 (0 is perfect, lower is better): model 0.1000, "
+        "naive baseline 0.1200; the model's is lower.",
+        "Brier score, census above beds - 4 (0 is perfect, lower is better): model 0.2000, "
+        "naive baseline 0.1500; the naive baseline's is lower.",
+    ]
+    # Scores that differ only past the fourth decimal are shown, and called, equal.
+    overall["naive_brier_over_beds_minus_2"] = 0.10004
+    assert "model 0.1000, naive baseline 0.1000; equal to 4 decimals." in brier_lines(overall)[1]
+
+
+def test_page_shows_both_brier_scores():
+    page = hindcast_page(_result(1.5, 0.81, 0.3), {"coverage.png": b"", "pit.png": b""})
+    section = page[page.index("Brier score, model and naive baseline") :]
+    assert "model 0.2000, naive baseline 0.1500; the naive baseline&#x27;s is lower." in section
+    assert "naive Brier score, census above beds - 2 (0 to 1)" in page

@@ -179,6 +179,7 @@ def hindcast(
     forecast with the census that happened: hindcast.csv, charts, hindcast.html."""
     from planner.outputs import atomic_folder
     from planner.report.hindcast_report import headline, write_hindcast_files
+    from planner.report.hindcast_tables import brier_lines
     from planner.runs.hindcast import hindcast as run_hindcast
 
     plan, _ = load_plan(scenario)
@@ -197,4 +198,6 @@ def hindcast(
         )
         write_hindcast_files(result, plan, folder)
     click.echo(headline(result))
+    for line in brier_lines(result.overall()):
+        click.echo(line)
     click.echo(f"wrote {target}/hindcast.html")

@@ -6,13 +6,15 @@ Written into one folder:
   :mod:`planner.runs.hindcast`);
 * ``hindcast_summary.csv``: per horizon week (0 = all): horizon_week, days, origins,
   model_coverage_50/80/95, model_pinball, naive_coverage_50/80/95, naive_pinball (patients),
-  pinball_skill (1 - model / naive), brier_over_beds, brier_over_beds_minus_2,
-  brier_over_beds_minus_4;
+  pinball_skill (1 - model / naive), and for each threshold over_beds, over_beds_minus_2 and
+  over_beds_minus_4 the Brier scores model_brier_<threshold> and naive_brier_<threshold> and
+  brier_skill_<threshold> (1 - model / naive);
 * ``hindcast_reliability.csv``: threshold, bin_from, bin_to, days, mean_predicted,
   observed_frequency;
 * ``hindcast.json``: the sidecar that ties the files to one setup: scenario name and key
   (:func:`planner.fingerprint.scenario_key`), origins, horizon, paths, seed, overall coverage,
-  PIT chi-square; the run record fields (resolved scenario, input hashes, versions);
+  overall Brier scores (model and naive, per threshold), PIT chi-square; the run record
+  fields (resolved scenario, input hashes, versions);
 * ``pit.png``, ``coverage.png`` and the page ``hindcast.html``.
 """
 
@@ -25,6 +27,15 @@ import pandas as pd
 
 from planner.report import charts, html
 from planner.report.files import run_record, write_csv, write_json
+from planner.report.hindcast_tables import (
+    BRIER_NOTE,
+    RELIABILITY_NOTE,
+    SUMMARY_NOTE,
+    THRESHOLDS,
+    brier_facts,
+    reliability_view,
+    summary_view,
+)
 from planner.results import HINDCAST_SIDECAR, HindcastResult
 
 #: The PIT p-value under which calibration is called not acceptable (the page says why).
@@ -140,6 +151,10 @@ def _sidecar(result: HindcastResult, scenario) -> dict:
         "weeks": result.weeks,
         "coverage": {str(p): float(overall[f"model_coverage_{p}"]) for p in (50, 80, 95)},
         "naive_coverage": {str(p): float(overall[f"naive_coverage_{p}"]) for p in (50, 80, 95)},
+        "brier": {
+            name: {who: float(overall[f"{who}_brier_{name}"]) for who in ("model", "naive")}
+            for name in THRESHOLDS
+        },
         "pit_chi_square": result.chi_square,
         "pit_p_value": result.p_value,
         "notes": list(result.notes),
@@ -213,70 +228,13 @@ def hindcast_page(result, pictures: dict[str, bytes]) -> str:
         ("Coverage", html.image(pictures["coverage.png"], "coverage by horizon week")),
         ("Calibration (PIT)", html.image(pictures["pit.png"], "PIT histogram")),
         (
+            "Bed thresholds: Brier score, model and naive baseline",
+            html.facts(brier_facts(result.overall())) + BRIER_NOTE,
+        ),
+        (
             "Bed thresholds: reliability",
             html.table(reliability_view(result.reliability)) + RELIABILITY_NOTE,
         ),
         ("Method", html.facts(method)),
     ]
     return html.page(f"Hindcast: {result.scenario_name}", sections, subtitle)
-
-
-SUMMARY_NOTE = (
-    "<p>Coverage: share of days on which the recorded census fell inside the central 50%, "
-    "80% and 95% bands, for this setup and for the naive baseline (census at the start "
-    "carried forward). Pinball loss in patients, averaged over days and quantile levels, lower "
-    "is better; skill = 1 - model / naive. Brier score of the predicted chance that the census "
-    "is above beds - 2 (0 is perfect). All columns are in hindcast_summary.csv.</p>"
-)
-
-RELIABILITY_NOTE = (
-    "<p>Days grouped by the predicted chance that the census is above a threshold; a reliable "
-    "forecast has the observed share close to the mean predicted chance in every row. All "
-    "columns are in hindcast_reliability.csv.</p>"
-)
-
-#: The thresholds of hindcast_reliability.csv in words.
-THRESHOLDS = {
-    "over_beds": "census above beds",
-    "over_beds_minus_2": "census above beds - 2",
-    "over_beds_minus_4": "census above beds - 4",
-}
-
-
-def summary_view(summary: pd.DataFrame) -> pd.DataFrame:
-    """The summary with headers that say their unit, coverages side by side."""
-
-    def bands(prefix: str) -> pd.Series:
-        parts = [summary[f"{prefix}_coverage_{p}"].map("{:.0%}".format) for p in (50, 80, 95)]
-        return parts[0] + " / " + parts[1] + " / " + parts[2]
-
-    return pd.DataFrame(
-        {
-            "horizon week": summary["horizon_week"].map(lambda w: "all" if w == 0 else str(w)),
-            "days scored (count)": summary["days"],
-            "start dates (count)": summary["origins"],
-            "inside the 50 / 80 / 95% bands (% of days)": bands("model"),
-            "naive baseline inside the bands (% of days)": bands("naive"),
-            "pinball loss (patients per day)": summary["model_pinball"].map("{:.2f}".format),
-            "naive pinball loss (patients per day)": summary["naive_pinball"].map("{:.2f}".format),
-            "skill (% lower loss than naive)": summary["pinball_skill"].map("{:.0%}".format),
-            "Brier score, census above beds - 2 (0 to 1)": summary["brier_over_beds_minus_2"].map(
-                "{:.3f}".format
-            ),
-        }
-    )
-
-
-def reliability_view(reliability: pd.DataFrame) -> pd.DataFrame:
-    """hindcast_reliability.csv with readable headers."""
-    return pd.DataFrame(
-        {
-            "threshold": reliability["threshold"].map(lambda t: THRESHOLDS.get(t, t)),
-            "predicted chance (% range)": reliability["bin_from"].map("{:.0%}".format)
-            + " to "
-            + reliability["bin_to"].map("{:.0%}".format),
-            "days (count)": reliability["days"],
-            "mean predicted chance (%)": reliability["mean_predicted"].map("{:.1%}".format),
-            "observed share of days (%)": reliability["observed_frequency"].map("{:.1%}".format),
-        }
-    )

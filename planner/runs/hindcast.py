@@ -24,7 +24,10 @@ model_pinball (pinball loss over the levels 0.05 .. 0.95), naive_start (census a
 naive_median, naive_lo50 .. naive_hi95, naive_pinball (the carried-forward baseline of
 :mod:`planner.summaries.hindcast_scores`), pit (randomised PIT), pit_sample (True on the day
 used for the PIT chi-square: day 4 of each horizon week, one per origin-week), p_over_beds,
-p_over_beds_minus_2, p_over_beds_minus_4 (share of paths with census > beds_open - 0, 2, 4).
+p_over_beds_minus_2, p_over_beds_minus_4 (share of paths with census > beds_open - 0, 2, 4),
+naive_p_over_beds, naive_p_over_beds_minus_2, naive_p_over_beds_minus_4 (the naive
+baseline's chance of the same: share of the history's h-day census changes that take the
+census at the origin above the threshold).
 
 Randomness: origin o uses ``SeedSequence(seed, spawn_key=(day number of o,))``, so its numbers
 do not depend on the other origins or on ``workers``.
@@ -132,6 +135,8 @@ def hindcast_origin(
     }
     for column, offset in THRESHOLDS.items():
         rows[column] = np.mean(simulated > (beds - offset)[None, :], axis=0)
+    for column, offset in THRESHOLDS.items():
+        rows[f"naive_{column}"] = scores.naive_chance_above(before.to_numpy(), start, beds - offset)
     return pd.DataFrame(rows)
 
 

@@ -5,15 +5,22 @@
   upper.
 * Pinball loss (patients) averaged over the levels 0.05, 0.10, ..., 0.95:
   tau (y - q) if y >= q else (1 - tau)(q - y).
-* Naive census baseline: the census at the origin carried forward; its quantile at horizon h
-  days is the origin census plus the quantile of the h-day census changes c[t + h] - c[t]
-  over the history before the origin.
+* Naive census baseline: the census at the origin carried forward; its distribution at
+  horizon h days is the origin census plus the h-day census changes c[t + h] - c[t] over the
+  history before the origin, each change counted once. Its quantiles are those of this
+  distribution (numpy's linear interpolation); its chance of a census above a threshold is
+  the share of the changes d with origin census + d > threshold (the empirical distribution
+  itself, no interpolation). Horizons longer than the history use the longest it allows.
 * Randomised PIT for integer census (Czado, Gneiting & Held, Biometrics 65 (2009) 1254-1261):
   u = F(y - 1) + v (F(y) - F(y - 1)), v ~ Uniform(0, 1), F the share of paths <= y; uniform
   on (0, 1) when the forecast is calibrated.
 * Pearson chi-square test of equal PIT bin counts (scipy.stats.chisquare).
 * Brier score (Brier, Monthly Weather Review 78 (1950) 1-3) of P(census > threshold): mean
-  of (p - 1{y > threshold})^2; and a reliability table of predicted-probability bins.
+  of (p - 1{y > threshold})^2, 0 for a perfect forecast; the model's and the naive baseline's
+  on the same days, and a reliability table of predicted-probability bins. Brier skill
+  1 - model / naive: a skill score against a reference forecast (Wilks, Statistical Methods
+  in the Atmospheric Sciences, chapter on forecast verification; from memory); undefined
+  (NaN) when the naive score is 0.
 """
 
 from __future__ import annotations
@@ -32,18 +39,29 @@ def quantiles_of_paths(census_paths: np.ndarray, levels=BAND_LEVELS) -> np.ndarr
     return np.quantile(np.asarray(census_paths, dtype=float), levels, axis=0).T
 
 
+def census_changes(census_before: np.ndarray, h: int) -> np.ndarray:
+    """The h-day census changes c[t + h] - c[t] over a census history (patients, oldest
+    first); horizons longer than the history get the changes of the longest it allows, a
+    history of one day a single change of 0."""
+    c = np.asarray(census_before, dtype=float)
+    step = min(h, max(c.size - 1, 1))
+    return c[step:] - c[:-step] if c.size > step else np.zeros(1)
+
+
 def census_changes_quantiles(census_before: np.ndarray, days: int, levels) -> np.ndarray:
     """Quantiles (days, levels) of h-day census changes, h = 1 .. ``days``, over a census
-    history (patients, oldest first). Horizons longer than the history get the changes of the
-    longest horizon it allows."""
-    c = np.asarray(census_before, dtype=float)
-    longest = max(c.size - 1, 1)
-    out = np.empty((days, len(levels)))
-    for h in range(1, days + 1):
-        step = min(h, longest)
-        changes = c[step:] - c[:-step] if c.size > step else np.zeros(1)
-        out[h - 1] = np.quantile(changes, levels)
-    return out
+    history (patients, oldest first) (:func:`census_changes`)."""
+    return np.array([np.quantile(census_changes(census_before, h), levels)
+                     for h in range(1, days + 1)]).reshape(days, len(levels))  # fmt: skip
+
+
+def naive_chance_above(census_before: np.ndarray, start: float, thresholds) -> np.ndarray:
+    """The naive baseline's chance (days,) that the census on horizon day h = 1 .. is above
+    ``thresholds[h - 1]``: the share of the h-day census changes d (:func:`census_changes`)
+    with ``start`` + d > threshold."""
+    limits = np.asarray(thresholds, dtype=float)
+    return np.array([np.mean(start + census_changes(census_before, h) > limit)
+                     for h, limit in enumerate(limits, start=1)])  # fmt: skip
 
 
 def pinball_by_day(actual: np.ndarray, quantiles: np.ndarray, levels) -> np.ndarray:
@@ -103,10 +121,17 @@ def reliability_table(probability, outcome, bins: int = 10) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=columns)
 
 
+def brier_skill(model: float, naive: float) -> float:
+    """1 - model / naive Brier score (module docstring); NaN when the naive score is 0."""
+    return 1.0 - model / naive if naive > 0 else float("nan")
+
+
 def summary_by_week(table: pd.DataFrame, threshold_columns: dict[str, int]) -> pd.DataFrame:
     """Per horizon week (0 = all weeks together) from hindcast rows: days, origins, coverage
     of the model's and the naive baseline's 50/80/95% intervals, mean pinball loss of each,
-    pinball skill (1 - model / naive), and the Brier score of each threshold column."""
+    pinball skill (1 - model / naive), and for each threshold column ``p_<name>`` (with the
+    naive baseline's ``naive_p_<name>``) the Brier score of each, ``model_brier_<name>`` and
+    ``naive_brier_<name>``, and ``brier_skill_<name>`` (1 - model / naive)."""
     rows = []
     weeks = [0, *sorted(table["horizon_week"].unique())]
     for week in weeks:
@@ -121,6 +146,10 @@ def summary_by_week(table: pd.DataFrame, threshold_columns: dict[str, int]) -> p
         row["pinball_skill"] = 1.0 - row["model_pinball"] / row["naive_pinball"]
         for column, offset in threshold_columns.items():
             outcome = y > part["beds_open"].to_numpy() - offset
-            row[f"brier_{column[2:]}"] = brier_score(part[column], outcome)
+            name = column.removeprefix("p_")
+            model = brier_score(part[column], outcome)
+            naive = brier_score(part[f"naive_{column}"], outcome)
+            row[f"model_brier_{name}"], row[f"naive_brier_{name}"] = model, naive
+            row[f"brier_skill_{name}"] = brier_skill(model, naive)
         rows.append(row)
     return pd.DataFrame(rows)
