@@ -266,3 +266,26 @@ def test_hindcast_command_and_the_run_report_quotes_it(tmp_path):
     other.write_text(scenario.source.read_text().replace("base = 60", "base = 61"))
     run = CliRunner().invoke(cli, ["run", str(other), "--out", str(runs / "o"), "--paths", "20"])
     assert "No hindcast has been run" in (runs / "o" / "report.html").read_text()
+
+
+def test_the_pit_test_counts_each_date_once():
+    # Origins 14 days apart with 13-week horizons forecast the same dates; the chi-square
+    # test of the PIT assumes independent values, so a date enters once (common practice:
+    # one value per verified date).
+    import pandas as pd
+
+    from planner.runs.hindcast import one_pit_per_date
+
+    origins = pd.to_datetime(["2026-01-01", "2026-01-15", "2026-01-29"])
+    rows = []
+    for origin in origins:
+        for day in range(1, 43):
+            rows.append({"origin": origin, "date": origin + pd.Timedelta(days=day - 1),
+                         "pit_sample": (day - 1) % 7 + 1 == 4})  # fmt: skip
+    kept = one_pit_per_date(pd.DataFrame(rows))
+    sampled = kept[kept["pit_sample"]]
+    assert sampled["date"].is_unique
+    assert set(sampled["date"]) == {r["date"] for r in rows if r["pit_sample"]}
+    latest = sampled.groupby("date")["origin"].max()
+    for date, origin in latest.items():
+        assert origin == max(o for o in origins if o <= date)

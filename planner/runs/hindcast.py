@@ -22,8 +22,9 @@ origin, date, horizon_day (1 = the origin's own day), horizon_week (1 = days 1-7
 model_lo50/hi50, model_lo80/hi80, model_lo95/hi95 (central intervals across paths),
 model_pinball (pinball loss over the levels 0.05 .. 0.95), naive_start (census at the origin),
 naive_median, naive_lo50 .. naive_hi95, naive_pinball (the carried-forward baseline of
-:mod:`planner.summaries.hindcast_scores`), pit (randomised PIT), pit_sample (True on the day
-used for the PIT chi-square: day 4 of each horizon week, one per origin-week), p_over_beds,
+:mod:`planner.summaries.hindcast_scores`), pit (randomised PIT), pit_sample (True on the days
+used for the PIT chi-square: day 4 of each horizon week, each calendar date once, from the
+latest origin before it), p_over_beds,
 p_over_beds_minus_2, p_over_beds_minus_4 (share of paths with census > beds_open - 0, 2, 4),
 naive_p_over_beds, naive_p_over_beds_minus_2, naive_p_over_beds_minus_4 (the naive
 baseline's chance of the same: share of the history's h-day census changes that take the
@@ -215,7 +216,7 @@ def hindcast(
             f"(inside the history, after its first {WARMUP_DAYS} days)"
         )
     arguments = [(scenario, history, census, o, paths, seed, engine) for o in origins]
-    table = pd.concat(_map(arguments, workers), ignore_index=True)
+    table = one_pit_per_date(pd.concat(_map(arguments, workers), ignore_index=True))
     sample = table[table["pit_sample"]]
     counts, chi_square, p_value = scores.pit_chi_square(sample["pit"].to_numpy())
     reliability = []
@@ -240,6 +241,16 @@ def hindcast(
         p_value=p_value,
         notes=_notes(scenario, table),
     )
+
+
+def one_pit_per_date(table: pd.DataFrame) -> pd.DataFrame:
+    """``table`` with ``pit_sample`` kept on one row per calendar date: the latest origin's
+    (its freshest forecast). Origins closer together than the horizon forecast the same dates,
+    and the PIT values of one date from several origins share that date's census: counted
+    several times, they would make the chi-square test reject a well-calibrated model."""
+    sampled = table[table["pit_sample"]].sort_values(["date", "origin"])
+    kept = sampled.drop_duplicates("date", keep="last").index
+    return table.assign(pit_sample=table.index.isin(kept))
 
 
 def latest_hindcast(roots: list[Path], scenario: Scenario) -> HindcastQuote | None:
