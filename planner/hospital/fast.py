@@ -295,6 +295,7 @@ def _simulate_block(inputs, ward, links, records, tables):  # pragma: no cover -
                     continue
                 host = loc[mover]  # the outlier moves home; the host's bed frees in turn
                 loc[mover] = v
+                _raise_peaks(st, v)  # (a bed opened at 00:00 raised v's occupancy)
                 st[host, _HOSTING] -= 1
                 counts[v, _MOVED_BACK, p, day] += 1
                 counts[host, _MOVED_OUT, p, day] += 1

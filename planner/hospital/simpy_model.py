@@ -331,7 +331,12 @@ def simulate_drawn(inputs: HospitalInputs, model: HospitalModel, days: int) -> H
     stay_hours = _stay_function(inputs, model)
     for i in range(inputs.paths):
         _run_path(inputs, i, model, beds, records, stay_hours)
-    return hospital_result(model, inputs.first_path, beds, records)
+    counts, wait_hours, outlier_hours, peaks, between = records
+    ward_first = (np.ascontiguousarray(counts.transpose(1, 3, 0, 2)),
+                  np.ascontiguousarray(wait_hours.transpose(1, 0, 2)),
+                  np.ascontiguousarray(outlier_hours.transpose(1, 0, 2)),
+                  np.ascontiguousarray(peaks.transpose(1, 0, 2, 3)), between)  # fmt: skip
+    return hospital_result(model, inputs.first_path, beds, ward_first)
 
 
 def simulate_hospital(
