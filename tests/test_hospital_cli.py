@@ -142,3 +142,16 @@ def test_one_ward_commands_refuse_a_hospital_file(tmp_path):
     result = CliRunner().invoke(cli, ["forecast", str(hospital(tmp_path, QUICK))])
     assert result.exit_code == 2 and "a hospital file" in result.output
     assert len(result.output.strip().splitlines()) == 1
+
+
+def test_both_engines_write_the_same_hospital_files(tmp_path):
+    # The SimPy model and the compiled engine agree path by path on the same drawn inputs
+    # (tests/test_hospital_simpy.py), so their files are the same byte for byte.
+    path = hospital(tmp_path, LINKED)
+    for engine in ("simpy", "fast"):
+        arguments = ["--paths", "20", "--jobs", "1", "--engine", engine]
+        result = CliRunner().invoke(cli, ["run", str(path), *arguments, "--out",
+                                          str(tmp_path / engine)])  # fmt: skip
+        assert result.exit_code == 0, result.output
+    for name in ("hospital.csv", "outlying.csv", "placements.csv", "wards/Larch/weekly.csv"):
+        assert (tmp_path / "simpy" / name).read_bytes() == (tmp_path / "fast" / name).read_bytes()
