@@ -14,9 +14,10 @@ on-disk cache, forecasts, simulation and every report file are included):
 - run, jobs=1;
 - run on a dask.distributed cluster: a LocalCluster of 2 worker processes started here,
   ``--scheduler``; its hospital.csv must equal the local run's byte for byte.
-Peak memory: the command's resident memory with its worker processes added together, sampled
-every 0.1 s (psutil, installed with dask.distributed); for the cluster row, the command's
-own processes only (the cluster's workers are not its children).
+Peak memory: the command's memory with its worker processes added together, as proportional
+set sizes (a page shared by forked processes counted once in all, split between them),
+sampled every 0.2 s (psutil, installed with dask.distributed; Linux); for the cluster row, the
+command's own processes only (the cluster's workers are not its children).
 """
 
 from __future__ import annotations
@@ -91,10 +92,10 @@ def command(arguments: list[str]) -> tuple[float, float]:
     while process.poll() is None:
         try:
             tree = [watched, *watched.children(recursive=True)]
-            peak = max(peak, sum(p.memory_info().rss for p in tree))
+            peak = max(peak, sum(p.memory_full_info().pss for p in tree))
         except psutil.Error:  # a process ended while being read
             pass
-        time.sleep(0.1)
+        time.sleep(0.2)
     seconds = time.perf_counter() - clock
     if process.returncode:
         raise SystemExit(process.stderr.read().decode())

@@ -15,13 +15,14 @@ from concurrent.futures.process import BrokenProcessPool
 import numpy as np
 
 from planner.hospital.model import HospitalModel
-from planner.hospital.result import HospitalResult, allocate, fill
+from planner.hospital.result import HospitalResult, fill_records, hospital_result
 from planner.simulate import workers
 from planner.simulate.engines import CHUNK_PATHS, chosen_engine, chunk_bounds
 from planner.simulate.model import RunOptions
 
 
 def _run(engine: str, arrivals: list[np.ndarray], model: HospitalModel, seed, first: int):
+    """One chunk's result (for a cluster, which sends results back)."""
     if engine == "simpy":
         from planner.hospital.simpy_model import simulate_hospital
 
@@ -29,6 +30,25 @@ def _run(engine: str, arrivals: list[np.ndarray], model: HospitalModel, seed, fi
     from planner.hospital.fast import simulate_hospital_fast
 
     return simulate_hospital_fast(arrivals, model, seed, first_path=first)
+
+
+def _into(records, arguments: tuple, end: int) -> None:
+    """Run one chunk (``arguments`` as for :func:`_run`) into its rows of ``records``."""
+    from planner.hospital.fast import rows, simulate_chunk
+
+    engine, arrivals, model, seed, first = arguments
+    part = rows(records, first, end)
+    if engine == "simpy":
+        fill_records(part, _run(*arguments), model)
+    else:
+        simulate_chunk(arrivals, model, seed, first, part)
+
+
+def _into_shared(arrays: dict[str, np.ndarray], arguments: tuple, end: int) -> None:
+    """In a worker: :func:`_into` on the records in shared memory."""
+    from planner.hospital.fast import RECORDS
+
+    _into(tuple(arrays[name] for name in RECORDS), arguments, end)
 
 
 def simulate(
@@ -39,50 +59,87 @@ def simulate(
 ) -> HospitalResult:
     """Simulate ``model`` for every path of the wards' daily ``arrivals`` (each (paths x
     days), hospital order) with the engine, processes and cluster of ``options``;
-    ``options.progress(done, total)`` is called as chunks finish."""
+    ``options.progress(done, total)`` is called as chunks finish. Every chunk writes its
+    measures straight into one set of record arrays (in shared memory when other processes
+    run chunks), so no chunk's result is joined or sent back, except from a cluster."""
+    from planner.hospital.fast import RECORDS, beds_by_ward, record_specification
+
     options = options or RunOptions()
     name = chosen_engine(options.engine or "auto")
-    paths = np.asarray(arrivals[0]).shape[0]
+    paths, days = np.asarray(arrivals[0]).shape
     jobs = max(int(options.jobs), 1)
     chunk = min(CHUNK_PATHS[name], max(1, -(-paths // jobs)))
     pieces = chunk_bounds(paths, jobs, chunk)
     arguments = [(name, [np.asarray(a)[lo:hi] for a in arrivals], model, seed, lo)
                  for lo, hi in pieces]  # fmt: skip
-    whole: list[HospitalResult] = []  # the result, allocated when the first chunk is done
+    specification = record_specification(model, paths, days)
+    forked = jobs > 1 and len(pieces) > 1 and options.scheduler is None and workers.can_fork()
+    shared = workers.SharedArrays(specification) if forked else None
+    arrays = shared.arrays if forked else {
+        key: np.zeros(shape, dtype) for key, (shape, dtype) in specification.items()
+    }  # fmt: skip
+    records = tuple(arrays[key] for key in RECORDS)
     done = [0]
 
-    def finished(i: int, part: HospitalResult) -> None:
-        if len(pieces) == 1:
-            whole.append(part)
-        else:
-            if not whole:
-                whole.append(allocate(part, paths))
-            fill(whole[0], part, pieces[i][0])
-        done[0] += part.paths
+    def finished(i: int) -> None:
+        done[0] += pieces[i][1] - pieces[i][0]
         if options.progress is not None:
             options.progress(done[0], paths)
 
-    if options.scheduler is not None:
-        from planner.simulate.distributed import map_chunks
+    try:
+        if options.scheduler is not None:
+            from planner.simulate.distributed import map_chunks
 
-        for i, part in enumerate(map_chunks(options.scheduler, _run, arguments)):
-            finished(i, part)
-    elif jobs == 1 or len(pieces) == 1:
-        for i, args in enumerate(arguments):
-            finished(i, _run(*args))
-    else:
-        try:
-            futures = {i: workers.submit(jobs - 1, _run, *args)
-                       for i, args in enumerate(arguments) if i % jobs}  # fmt: skip
+            for i, part in enumerate(map_chunks(options.scheduler, _run, arguments)):
+                fill_records(rows_of(records, pieces[i]), part, model)
+                finished(i)
+        elif jobs == 1 or len(pieces) == 1:
             for i, args in enumerate(arguments):
-                if i % jobs == 0:
-                    finished(i, _run(*args))
-            for i, future in futures.items():
-                try:
-                    finished(i, future.result())
-                except BrokenProcessPool:  # a worker was killed: run its chunk here
-                    finished(i, _run(*arguments[i]))
-        except BaseException:
-            workers.stop()
-            raise
-    return whole[0]
+                _into(records, args, pieces[i][1])
+                finished(i)
+        else:
+            _in_processes(records, shared, arguments, pieces, (jobs, finished))
+    finally:
+        if shared is not None:
+            shared.remove()
+    return hospital_result(model, 0, beds_by_ward(model, days), records)
+
+
+def rows_of(records, piece: tuple[int, int]):
+    from planner.hospital.fast import rows
+
+    return rows(records, *piece)
+
+
+def _in_processes(records, shared, arguments, pieces, running) -> None:
+    """Chunk i runs here when i is a multiple of ``jobs``, the others in the session's
+    workers, each writing into the shared records (or, where processes are not forked,
+    sending its result back)."""
+    jobs, finished = running
+    try:
+        futures = {}
+        for i, args in enumerate(arguments):
+            if i % jobs == 0:
+                continue
+            if shared is None:  # results come back pickled
+                futures[i] = workers.submit(jobs - 1, _run, *args)
+                continue
+            place = (shared.path, shared.layout)
+            futures[i] = workers.submit(jobs - 1, workers.run_on_shared, *place, _into_shared,
+                                        args, pieces[i][1])  # fmt: skip
+        for i, args in enumerate(arguments):
+            if i % jobs == 0:
+                _into(records, args, pieces[i][1])
+                finished(i)
+        for i, future in futures.items():
+            try:
+                part = future.result()
+            except BrokenProcessPool:  # a worker was killed: run its chunk here
+                _into(records, arguments[i], pieces[i][1])
+                part = None
+            if part is not None:
+                fill_records(rows_of(records, pieces[i]), part, arguments[i][2])
+            finished(i)
+    except BaseException:  # interrupted or failed: stop the workers' chunks too
+        workers.stop()
+        raise

@@ -13,11 +13,9 @@ A ward with no outlying links follows exactly the steps of the one-ward engine
 
 from __future__ import annotations
 
-from dataclasses import replace
-
 import numpy as np
 
-from planner.hospital.result import COUNTED, HospitalResult, allocate, fill, hospital_result
+from planner.hospital.result import COUNTED, HospitalResult, hospital_result
 from planner.hospital.sampling import HospitalInputs, draw_hospital
 from planner.simulate.compiled import compiled, compiled_inline
 from planner.simulate.discharge_times import discharge_at, tables_for
@@ -375,51 +373,80 @@ def beds_by_ward(model, days: int) -> np.ndarray:
     return np.array([beds_open_by_day(w.settings, w.start, days) for w in model.wards])
 
 
-def _record_arrays(paths: int, wards: int, days: int, shifts: int):
-    """The records, ward first, so that each ward's measure is one contiguous (paths, days)
-    block that the result views without copying: counts (wards, ``COUNTED``, paths, days),
-    wait hours and outlier hours (wards, paths, days), shift peaks (wards, paths, days, most
-    shifts), outliers placed between wards (paths, wards, wards)."""
-    return (
-        np.zeros((wards, len(COUNTED), paths, days), dtype=np.int32),
-        np.zeros((wards, paths, days)),
-        np.zeros((wards, paths, days)),
-        np.zeros((wards, paths, days, shifts), dtype=np.int32),
-        np.zeros((paths, wards, wards), dtype=np.int32),
-    )
+#: The engine's record arrays, in the order the compiled loop takes them.
+RECORDS = ("counts", "wait_hours", "outlier_hours", "shift_peaks", "between")
 
 
-def simulate_drawn(inputs: HospitalInputs, model, days: int) -> HospitalResult:
-    """Simulate ``model`` over ``days`` days for the paths whose inputs are ``inputs``."""
-    beds = beds_by_ward(model, days)
-    ward, links = _arguments(model, beds)
-    records = _record_arrays(inputs.paths, len(model.wards), days, ward[1].shape[1])
+def record_specification(model, paths: int, days: int) -> dict[str, tuple[tuple, type]]:
+    """Name -> (shape, dtype) of the records of ``paths`` paths, ward first, so that each
+    ward's measure is one contiguous (paths, days) block that the result views without
+    copying: counts (wards, ``COUNTED``, paths, days), wait hours and outlier hours (wards,
+    paths, days), shift peaks (wards, paths, days, most shifts), outliers placed between wards
+    (paths, wards, wards)."""
+    wards = len(model.wards)
+    shifts = max(len(ward.settings.staffing.shifts) for ward in model.wards)
+    return {
+        "counts": ((wards, len(COUNTED), paths, days), np.int32),
+        "wait_hours": ((wards, paths, days), np.float64),
+        "outlier_hours": ((wards, paths, days), np.float64),
+        "shift_peaks": ((wards, paths, days, shifts), np.int32),
+        "between": ((paths, wards, wards), np.int32),
+    }
+
+
+def record_arrays(model, paths: int, days: int) -> tuple[np.ndarray, ...]:
+    """Zeroed records (:func:`record_specification`), in the order of :data:`RECORDS`."""
+    specification = record_specification(model, paths, days)
+    return tuple(np.zeros(*specification[name]) for name in RECORDS)
+
+
+def rows(records: tuple[np.ndarray, ...], first: int, end: int) -> tuple[np.ndarray, ...]:
+    """Views of the records of paths ``first`` to ``end`` (the paths axis of each)."""
+    counts, wait_hours, outlier_hours, peaks, between = records
+    part = slice(first, end)
+    return (counts[:, :, part], wait_hours[:, part], outlier_hours[:, part], peaks[:, part],
+            between[part])  # fmt: skip
+
+
+def simulate_into(inputs: HospitalInputs, model, records) -> None:
+    """Simulate the paths of ``inputs`` into ``records`` (views of as many paths, zeroed)."""
+    days = records[0].shape[3]
+    ward, links = _arguments(model, beds_by_ward(model, days))
     arrays = (inputs.offsets, inputs.arrival_hours, inputs.ward, inputs.stay_days,
               inputs.clock_uniforms, inputs.planned, inputs.remaining_days,
               inputs.inpatient_ward)  # fmt: skip
     _simulate_block(arrays, ward, links, records, _ward_tables(model))
-    return hospital_result(model, inputs.first_path, beds, records)
+
+
+def simulate_drawn(inputs: HospitalInputs, model, days: int) -> HospitalResult:
+    """Simulate ``model`` over ``days`` days for the paths whose inputs are ``inputs``."""
+    records = record_arrays(model, inputs.paths, days)
+    simulate_into(inputs, model, records)
+    return hospital_result(model, inputs.first_path, beds_by_ward(model, days), records)
+
+
+def simulate_chunk(arrivals: list[np.ndarray], model, seed, first_path: int, records) -> None:
+    """Draw and simulate the paths of the wards' daily ``arrivals`` (path ``first_path`` on)
+    into ``records`` (views of as many paths), in blocks of about ``BLOCK_PATIENTS`` new
+    patients, so the drawn inputs of a block are all that is held besides the records."""
+    paths = arrivals[0].shape[0]
+    per_path = max(int(sum(counts.sum(axis=1).max(initial=0) for counts in arrivals)), 1)
+    block = max(BLOCK_PATIENTS // per_path, 1)
+    for lo in range(0, paths, block):
+        hi = min(lo + block, paths)
+        inputs = draw_hospital(model, [c[lo:hi] for c in arrivals], seed, first_path + lo)
+        simulate_into(inputs, model, rows(records, lo, hi))
 
 
 def simulate_hospital_fast(
     arrivals: list[np.ndarray], model, seed, *, first_path: int = 0
 ) -> HospitalResult:
     """Simulate ``model`` for every path of the wards' daily ``arrivals`` (each (paths x days),
-    hospital order), ward w's inputs from its own seed (:mod:`planner.hospital.sampling`).
-    Paths are drawn and simulated in blocks of about ``BLOCK_PATIENTS`` new patients."""
+    hospital order), ward w's inputs from its own seed (:mod:`planner.hospital.sampling`)."""
     arrivals = [np.asarray(counts) for counts in arrivals]
     for counts in arrivals:
         check_arrivals(counts)
     paths, days = arrivals[0].shape
-    per_path = max(int(sum(counts.sum(axis=1).max(initial=0) for counts in arrivals)), 1)
-    block = max(BLOCK_PATIENTS // per_path, 1)
-    result = None
-    for lo in range(0, paths, block):
-        inputs = draw_hospital(model, [c[lo : lo + block] for c in arrivals], seed, first_path + lo)
-        part = simulate_drawn(inputs, model, days)
-        if lo == 0 and block >= paths:
-            return part
-        if result is None:
-            result = allocate(part, paths)
-        fill(result, part, lo)
-    return replace(result, wards=tuple(replace(w, first_path=first_path) for w in result.wards))
+    records = record_arrays(model, paths, days)
+    simulate_chunk(arrivals, model, seed, first_path, records)
+    return hospital_result(model, first_path, beds_by_ward(model, days), records)

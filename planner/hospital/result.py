@@ -13,7 +13,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from planner.simulate.result import COUNTED as WARD_COUNTED
-from planner.simulate.result import PATH_DAILY, PATH_SHIFTS, WardResult, ward_result
+from planner.simulate.result import WardResult, ward_result
 
 #: Per path, ward and day (int32, patients): ``outliers_placed`` (the ward's patients placed on
 #: another ward, by the day placed), ``outliers_hosted`` (other wards' patients placed here),
@@ -68,33 +68,22 @@ class HospitalResult:
         return replace(parts[0], wards=wards, placed_between=between, **arrays)
 
 
-def allocate(part: HospitalResult, paths: int) -> HospitalResult:
-    """A result of ``paths`` paths (from path 0) shaped like ``part``, zero-filled, for
-    :func:`fill` to copy chunks into (so the chunks are never joined by copying them all)."""
-
-    def zeros(values: np.ndarray, axis: int) -> np.ndarray:
-        shape = list(values.shape)
-        shape[axis] = paths
-        return np.zeros(shape, dtype=values.dtype)
-
-    wards = tuple(
-        replace(ward, first_path=0,
-                **{name: zeros(getattr(ward, name), 0) for name in (*PATH_DAILY, *PATH_SHIFTS)})
-        for ward in part.wards
-    )  # fmt: skip
-    arrays = {name: zeros(getattr(part, name), 1) for name in (*OUTLYING, "outlier_hours")}
-    return replace(part, wards=wards, placed_between=zeros(part.placed_between, 0), **arrays)
-
-
-def fill(result: HospitalResult, part: HospitalResult, first: int) -> None:
-    """Copy the chunk ``part`` into ``result`` (from :func:`allocate`) at path ``first``."""
-    rows = slice(first, first + part.paths)
-    for whole, chunk in zip(result.wards, part.wards, strict=True):
-        for name in (*PATH_DAILY, *PATH_SHIFTS):
-            getattr(whole, name)[rows] = getattr(chunk, name)
-    for name in (*OUTLYING, "outlier_hours"):
-        getattr(result, name)[:, rows] = getattr(part, name)
-    result.placed_between[rows] = part.placed_between
+def fill_records(records, result: HospitalResult, model) -> None:
+    """Write ``result`` (of ``model``) into ``records`` (the engines' arrays of as many paths,
+    as :func:`hospital_result` reads them): for chunks simulated elsewhere (the SimPy model,
+    a cluster)."""
+    counts, wait_hours, outlier_hours, peaks, between = records
+    for w, ward in enumerate(result.wards):
+        for k, name in enumerate(WARD_COUNTED):
+            counts[w, k] = getattr(ward, name)
+        wait_hours[w] = ward.wait_hours
+        shifts = model.wards[w].settings.staffing.shifts
+        order = np.argsort([shift.start_hour for shift in shifts], kind="stable")
+        peaks[w, :, :, : len(shifts)] = ward.shift_peak_occupancy[:, :, order]
+    for i, name in enumerate(OUTLYING):
+        counts[:, len(WARD_COUNTED) + i] = getattr(result, name)
+    outlier_hours[...] = result.outlier_hours
+    between[...] = result.placed_between
 
 
 def hospital_result(model, first_path: int, beds: np.ndarray, records) -> HospitalResult:

@@ -115,6 +115,22 @@ def write_shared(path: str, layout: dict, first: int, values: dict[str, np.ndarr
         mapping.close()
 
 
+def run_on_shared(path: str, layout: dict, function, *arguments) -> None:
+    """In a worker: ``function(arrays, *arguments)`` on the shared arrays in file ``path``
+    (name -> array); the arrays must not outlive the call."""
+    with open(path, "r+b") as handle:
+        mapping = mmap.mmap(handle.fileno(), 0)
+    try:
+        _call(mapping, layout, function, arguments)
+    finally:
+        mapping.close()
+
+
+def _call(mapping, layout, function, arguments) -> None:
+    # A function of its own, so that no view of the mapping outlives it.
+    function(_views(mapping, layout), *arguments)
+
+
 def _copy_rows(arrays: dict[str, np.ndarray], first: int, values: dict[str, np.ndarray]) -> None:
     # A function of its own, so that no view of the mapping outlives it (the mapping can then
     # be closed).
