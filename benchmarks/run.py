@@ -1,5 +1,5 @@
 """All benchmarks in one process run: `python benchmarks/run.py [SECTION ...]` (from the project
-folder; sections: forecast, engines, commands, phases, memory; default all).
+folder; sections: forecast, engines, commands, phases, memory, hospital; default all).
 
 Prints tables of timings with ratios against a reference measured in the same run:
 forecast fit and paths against one plain statsmodels AutoReg fit, and the direct strategy's
@@ -185,12 +185,20 @@ def memory() -> None:
     print(f"peak memory, 10,000 paths x 26 weeks, fast engine: {peak_memory_mb(10_000, 26):.0f} MB")
 
 
+def hospital_section() -> None:
+    import hospital
+
+    sys.argv = sys.argv[:1]  # the hospital script's own options: its defaults
+    hospital.main()
+
+
 SECTIONS = {
     "forecast": forecast_section,
     "engines": engines_section,
     "commands": commands,
     "phases": phases,
     "memory": memory,
+    "hospital": hospital_section,
 }
 
 
