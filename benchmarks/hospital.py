@@ -109,10 +109,10 @@ def watched_memory(arguments: list[str], environment: dict[str, str]) -> float:
     return peak / 1e9
 
 
-def main() -> None:
+def main(arguments: list[str] | None = None) -> None:
     parser = argparse.ArgumentParser()
     parser.add_argument("--paths", type=int, default=10_000)
-    paths = parser.parse_args().paths
+    paths = parser.parse_args(arguments).paths
     with tempfile.TemporaryDirectory() as temporary:
         folder = Path(temporary)
         hospital = write_hospital(folder)
