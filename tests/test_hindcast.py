@@ -218,7 +218,9 @@ def test_synthetic_ward_is_calibrated_long_horizon_parallel(tmp_path, seed):
     assert 0.7 <= overall["model_coverage_80"] <= 0.9
     serial = hindcast(scenario, origins=result.origins[:2], paths=400)
     first_two = result.table[result.table["origin"].isin(result.origins[:2])]
-    pd.testing.assert_frame_equal(first_two.reset_index(drop=True), serial.table)
+    # pit_sample depends on the other origins (each date once, from the latest origin).
+    pd.testing.assert_frame_equal(first_two.reset_index(drop=True).drop(columns="pit_sample"),
+                                  serial.table.drop(columns="pit_sample"))  # fmt: skip
 
 
 def test_hindcast_command_and_the_run_report_quotes_it(tmp_path):
