@@ -1,13 +1,15 @@
 """planner: ward capacity planning under uncertain demand.
 
 The Python interface (:mod:`planner.api`): ``load_scenario``, ``run``, ``compare``, ``size``,
-``hindcast`` and ``write_report``; a scenario's keys change with ``Scenario.with_changes``.
+``hindcast``, for several wards ``run_hospital``, ``compare_hospitals`` and ``size_hospital``,
+and ``write_report``; a scenario's keys change with ``Scenario.with_changes``.
 Importing ``planner`` loads only this list; each function imports what it needs when called.
 """
 
 __version__ = "0.1.0"
 
-__all__ = ["compare", "hindcast", "load_scenario", "run", "size", "write_report"]
+__all__ = ["compare", "compare_hospitals", "hindcast", "load_scenario", "run", "run_hospital",
+           "size", "size_hospital", "write_report"]  # fmt: skip
 
 
 def __getattr__(name: str):

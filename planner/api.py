@@ -7,6 +7,8 @@
 >>> more = planner.run(plan.with_changes({"beds.base": 30}), paths=500)
 >>> both = planner.compare([plan, plan.with_changes({"beds.base": 30, "name": "30 beds"})])
 >>> both.table                                           # comparison.csv as a DataFrame
+>>> wards = planner.run_hospital("scenarios/kestrel_vale_hospital.toml", paths=500)
+>>> wards.table                                          # hospital.csv as a DataFrame
 
 Every function takes the options of the command line (``paths``, ``seed``, ``engine``,
 ``jobs``) with the same defaults: the scenario's paths, seed and engine, and all cores. A
@@ -27,12 +29,21 @@ from pathlib import Path
 import pandas as pd
 
 from planner.records.frames import HistoryFrames
-from planner.results import Comparison, HindcastResult, RunResult, SizingResult
+from planner.results import (
+    Comparison,
+    HindcastResult,
+    HospitalComparison,
+    HospitalRun,
+    HospitalSizing,
+    RunResult,
+    SizingResult,
+)
 from planner.scenario import Scenario, load_scenario
 from planner.simulate.model import RunOptions
 from planner.summaries.sizing import requested_target
 
-__all__ = ["Run", "compare", "hindcast", "load_scenario", "run", "size", "write_report"]
+__all__ = ["Run", "compare", "compare_hospitals", "hindcast", "load_scenario", "run",
+           "run_hospital", "size", "size_hospital", "write_report"]  # fmt: skip
 
 
 @dataclass(frozen=True)
@@ -146,16 +157,75 @@ def hindcast(plan: Scenario | str | Path | None = None, *, paths: int = 300,
     return run_hindcast(_scenario(plan), paths=paths, workers=workers)
 
 
-def write_report(result: Run | Comparison, folder: str | Path) -> Path:
-    """Write a run's or a comparison's files and report page into ``folder`` (made if
-    needed), as the command line does; returns the folder."""
+def run_hospital(
+    hospital: str | Path,
+    *,
+    paths: int | None = None,
+    seed: int | None = None,
+    engine: str | None = None,
+    jobs: int | None = None,
+) -> HospitalRun:
+    """Run a hospital file's wards together, as ``planner run HOSPITAL`` does: ``table`` is
+    hospital.csv, ``outlying`` outlying.csv, ``placements`` placements.csv, ``wards`` one run
+    per ward (each with its ``summary.weekly``)."""
+    from planner.runs.hospital import run_hospital as run_wards
+    from planner.scenario_hospital import load_hospital
+
+    return run_wards(load_hospital(hospital), _options(paths, seed, engine, jobs))
+
+
+def compare_hospitals(
+    plans: Sequence[str | Path],
+    *,
+    paths: int | None = None,
+    seed: int | None = None,
+    engine: str | None = None,
+    jobs: int | None = None,
+) -> HospitalComparison:
+    """Compare hospital plans path by path with the first, as ``planner compare`` does:
+    ``table`` is comparison.csv, ``glance`` glance.csv, ``runs`` the plans' runs."""
+    from planner.runs.hospital_compare import compare_hospitals as compare_plans
+
+    return compare_plans(list(plans), _options(paths, seed, engine, jobs))
+
+
+def size_hospital(
+    hospital: str | Path,
+    *,
+    target: float = 0.05,
+    total: int | None = None,
+    paths: int | None = None,
+    seed: int | None = None,
+) -> HospitalSizing:
+    """Beds per ward that keep the weekly chance that some patient finds no bed anywhere at
+    or under ``target``: the fewest in all, or the best split of ``total`` beds, as ``planner
+    size HOSPITAL`` does (``beds``, ``risk``, ``steps``)."""
+    from planner.runs.hospital_sizing import size_hospital as size_wards
+    from planner.scenario_hospital import load_hospital
+
+    return size_wards(load_hospital(hospital), target, total, _options(paths, seed, None, 1))
+
+
+def write_report(result, folder: str | Path) -> Path:
+    """Write the files and report page of a run, a comparison, a hospital run, a hospital
+    comparison or a hospital sizing into ``folder`` (made if needed), as the command line
+    does; returns the folder."""
     from planner.report.compare_report import write_compare_files
+    from planner.report.hospital_compare_report import write_hospital_compare_files
+    from planner.report.hospital_report import write_hospital_files
+    from planner.report.hospital_sizing_report import write_hospital_sizing_files
     from planner.report.run_report import write_run_files
 
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
-    if isinstance(result, Run):
-        write_run_files(result.result, folder)
-    else:
-        write_compare_files(result, folder)
+    writers = {
+        Run: lambda: write_run_files(result.result, folder),
+        Comparison: lambda: write_compare_files(result, folder),
+        HospitalRun: lambda: write_hospital_files(result, folder),
+        HospitalComparison: lambda: write_hospital_compare_files(result, folder),
+        HospitalSizing: lambda: write_hospital_sizing_files(result, folder),
+    }
+    if type(result) not in writers:
+        raise TypeError(f"write_report: no report for a {type(result).__name__}")
+    writers[type(result)]()
     return folder

@@ -124,3 +124,25 @@ def test_the_example_script_runs():
                           timeout=600, env={**os.environ, "PLANNER_CACHE": ""})  # fmt: skip
     assert done.returncode == 0, done.stderr
     assert "same weekly table from a DataFrame: True" in done.stdout
+
+
+def test_hospital_functions_give_the_command_line_files(tmp_path):
+    from test_hospital_cli import LINKED, hospital
+
+    path = hospital(tmp_path, LINKED)
+    out = tmp_path / "cli"
+    result = CliRunner().invoke(cli, ["run", str(path), "--paths", "40", "--jobs", "1",
+                                      "--out", str(out)])  # fmt: skip
+    assert result.exit_code == 0, result.output
+    wards = planner.run_hospital(path, paths=40, jobs=1)
+    folder = planner.write_report(wards, tmp_path / "api")
+    for name in ("hospital.csv", "outlying.csv", "placements.csv"):
+        assert (folder / name).read_bytes() == (out / name).read_bytes()
+    assert list(wards.table.columns) == list(pd.read_csv(out / "hospital.csv").columns)
+    both = planner.compare_hospitals([path, path], paths=40, jobs=1)
+    assert (both.glance["diff_p_no_bed_anywhere"] == 0).all()  # a plan against itself
+    sized = planner.size_hospital(path, target=0.5, paths=40)
+    assert sized.met and len(sized.beds) == 2
+    assert (planner.write_report(sized, tmp_path / "sized") / "sizing.csv").is_file()
+    with pytest.raises(TypeError, match="no report for a str"):
+        planner.write_report("report", tmp_path / "nothing")
