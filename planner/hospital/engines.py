@@ -14,6 +14,14 @@ from concurrent.futures.process import BrokenProcessPool
 
 import numpy as np
 
+from planner.hospital.fast import (
+    RECORDS,
+    beds_by_ward,
+    record_specification,
+    rows,
+    simulate_chunk,
+    simulate_hospital_fast,
+)
 from planner.hospital.model import HospitalModel
 from planner.hospital.result import HospitalResult, fill_records, hospital_result
 from planner.simulate import workers
@@ -27,15 +35,11 @@ def _run(engine: str, arrivals: list[np.ndarray], model: HospitalModel, seed, fi
         from planner.hospital.simpy_model import simulate_hospital
 
         return simulate_hospital(arrivals, model, seed, first_path=first)
-    from planner.hospital.fast import simulate_hospital_fast
-
     return simulate_hospital_fast(arrivals, model, seed, first_path=first)
 
 
 def _into(records, arguments: tuple, end: int) -> None:
     """Run one chunk (``arguments`` as for :func:`_run`) into its rows of ``records``."""
-    from planner.hospital.fast import rows, simulate_chunk
-
     engine, arrivals, model, seed, first = arguments
     part = rows(records, first, end)
     if engine == "simpy":
@@ -46,8 +50,6 @@ def _into(records, arguments: tuple, end: int) -> None:
 
 def _into_shared(arrays: dict[str, np.ndarray], arguments: tuple, end: int) -> None:
     """In a worker: :func:`_into` on the records in shared memory."""
-    from planner.hospital.fast import RECORDS
-
     _into(tuple(arrays[name] for name in RECORDS), arguments, end)
 
 
@@ -62,8 +64,6 @@ def simulate(
     ``options.progress(done, total)`` is called as chunks finish. Every chunk writes its
     measures straight into one set of record arrays (in shared memory when other processes
     run chunks), so no chunk's result is joined or sent back, except from a cluster."""
-    from planner.hospital.fast import RECORDS, beds_by_ward, record_specification
-
     options = options or RunOptions()
     name = chosen_engine(options.engine or "auto")
     paths, days = np.asarray(arrivals[0]).shape
@@ -91,7 +91,7 @@ def simulate(
             from planner.simulate.distributed import map_chunks
 
             for i, part in enumerate(map_chunks(options.scheduler, _run, arguments)):
-                fill_records(rows_of(records, pieces[i]), part, model)
+                fill_records(rows(records, *pieces[i]), part, model)
                 finished(i)
         elif jobs == 1 or len(pieces) == 1:
             for i, args in enumerate(arguments):
@@ -103,12 +103,6 @@ def simulate(
         if shared is not None:
             shared.remove()
     return hospital_result(model, 0, beds_by_ward(model, days), records)
-
-
-def rows_of(records, piece: tuple[int, int]):
-    from planner.hospital.fast import rows
-
-    return rows(records, *piece)
 
 
 def _in_processes(records, shared, arguments, pieces, running) -> None:
@@ -138,7 +132,7 @@ def _in_processes(records, shared, arguments, pieces, running) -> None:
                 _into(records, arguments[i], pieces[i][1])
                 part = None
             if part is not None:
-                fill_records(rows_of(records, pieces[i]), part, arguments[i][2])
+                fill_records(rows(records, *pieces[i]), part, arguments[i][2])
             finished(i)
     except BaseException:  # interrupted or failed: stop the workers' chunks too
         workers.stop()

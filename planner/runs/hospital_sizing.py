@@ -126,7 +126,7 @@ def size_hospital(
     record("scenario's beds")
     if total is None:
         while not meets(beds):
-            beds, ward = _grow(evaluate, beds, 1, lambda split: True, len(rows))
+            beds, ward = _grow(evaluate, beds, 1, len(rows))
             record(f"+1 {scenario.names[ward]}")
         while (step := _step(evaluate, beds, -1, meets)) is not None:
             beds, ward = step
@@ -134,7 +134,7 @@ def size_hospital(
     else:
         by = 1 if total > sum(beds) else -1
         while sum(beds) != total:
-            beds, ward = _grow(evaluate, beds, by, lambda split: True, len(rows))
+            beds, ward = _grow(evaluate, beds, by, len(rows))
             record(f"{by:+d} {scenario.names[ward]}")
         while len(rows) < MOST_STEPS and (moved := _exchange(evaluate, beds)) is not None:
             beds, source, sink = moved
@@ -147,13 +147,15 @@ def size_hospital(
     )  # fmt: skip
 
 
-def _grow(evaluate, beds, by: int, allowed, steps: int):
+def _grow(evaluate, beds, by: int, steps: int):
+    """The split one bed away in the direction ``by`` that leaves fewest patients without a
+    bed; refused after :data:`MOST_STEPS` steps, or when no ward can give up a bed."""
     if steps >= MOST_STEPS:
         raise PlannerError(
             f"size: no split found within {MOST_STEPS} single-bed steps; the target may need "
             f"far more beds than the scenario has (or cannot be met by beds alone)"
         )
-    step = _step(evaluate, beds, by, allowed)
+    step = _step(evaluate, beds, by, lambda split: True)
     if step is None:
         raise PlannerError("size: no ward can give up a bed")
     return step
