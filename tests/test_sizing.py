@@ -15,7 +15,7 @@ from scipy import optimize, stats
 from wards import FixedStay, drawn_ward
 
 from planner.errors import PlannerError
-from planner.runs.sizing import beds_search, search_beds
+from planner.runs.sizing import bed_simulator, beds_search, search_beds
 from planner.simulate import fast
 from planner.simulate.model import RunOptions, WardModel
 from planner.simulate.queueing import (
@@ -186,7 +186,8 @@ def erlang_ward(load: float, stays, share: float, paths: int, seed: int):
     model = WardModel(START, WardSettings(beds=1, policy="divert"), stays, np.zeros(0), UNIFORM)
     target = SizingTarget("no_bed_share", share)
     warmed = date(2024, 1, 1 + WARM_UP_DAYS)
-    tried = beds_search(model, arrivals, warmed, target, RunOptions(seed=seed, engine="fast"))
+    simulate = bed_simulator(model, arrivals, RunOptions(seed=seed, engine="fast"))
+    tried = beds_search(model, arrivals, warmed, target, simulate)
     return int(beds_needed(tried, share)[0]), tried
 
 

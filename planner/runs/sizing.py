@@ -44,7 +44,7 @@ import pandas as pd
 from planner.errors import PlannerError
 from planner.records.ward_history import WardHistory
 from planner.results import SizingResult
-from planner.runs.run import forecast_step, load_history, simulate_step, ward_model
+from planner.runs.run import Streams, forecast_step, load_history, simulate_step, ward_model
 from planner.scenario import Scenario
 from planner.simulate.model import RunOptions, WardModel, beds_open_by_day
 from planner.summaries.roster import roster_needed
@@ -103,25 +103,56 @@ def bed_limits(model: WardModel, arrivals: np.ndarray) -> tuple[int, int]:
     return floor, max(floor, most - int(offsets.min()))
 
 
-def risk_function(model: WardModel, arrivals: np.ndarray, options: RunOptions, start, measure):
-    """``risk_at(beds)``: ``model`` with ``beds`` base beds simulated on ``arrivals`` with the
-    seed of ``options`` (common random numbers), and ``measure`` in each week from ``start``
-    with its standard error."""
+#: Most new patients whose random inputs a search draws once and keeps for every bed count;
+#: above it each bed count is simulated as a run is (inputs drawn block by block).
+KEPT_PATIENTS = 4_000_000
+
+
+def bed_simulator(model: WardModel, arrivals: np.ndarray, options: RunOptions):
+    """``simulate(beds)``: the ward result of ``model`` with ``beds`` base beds on
+    ``arrivals`` with the seed of ``options`` (common random numbers). The random inputs do
+    not depend on the beds, so when they are few enough (:data:`KEPT_PATIENTS`) they are drawn
+    once and every bed count runs on them in this process, with the engine ``options``
+    chooses; the numbers are those of :func:`planner.runs.run.simulate_step` either way."""
+    if arrivals.sum() > KEPT_PATIENTS or options.scheduler is not None:
+
+        def simulate_each(beds: int):
+            settings = replace(model.settings, beds=int(beds))
+            return simulate_step(model.with_settings(settings), arrivals, options)
+
+        return simulate_each
+    from planner.simulate import fast, ward
+    from planner.simulate.engines import chosen_engine
+    from planner.simulate.sampling import draw_inputs
+
+    engine = fast if chosen_engine(options.engine or "auto") == "fast" else ward
+    seed = Streams.from_seed(options.seed).ward
+    inputs = draw_inputs(model, np.asarray(arrivals, dtype=np.int64), seed)
+
+    def simulate(beds: int):
+        settings = replace(model.settings, beds=int(beds))
+        return engine.simulate_drawn(inputs, model.with_settings(settings), arrivals.shape[1])
+
+    return simulate
+
+
+def risk_function(simulate, start, measure):
+    """``risk_at(beds)``: ``measure`` in each week from ``start``, with its standard error,
+    of the ward ``simulate(beds)`` gives (:func:`bed_simulator`)."""
 
     def risk_at(beds: int) -> Risk:
-        settings = replace(model.settings, beds=int(beds))
-        ward = simulate_step(model.with_settings(settings), arrivals, options)
-        return weekly_risk(ward, start, measure)
+        return weekly_risk(simulate(beds), start, measure)
 
     return risk_at
 
 
 def beds_search(
-    model: WardModel, arrivals: np.ndarray, start, target: SizingTarget, options: RunOptions
+    model: WardModel, arrivals: np.ndarray, start, target: SizingTarget, simulate
 ) -> dict[int, Risk]:
     """Every bed count simulated (risk and error per week from ``start``) while finding the
-    beds each week needs, starting from the model's beds (:func:`search_beds`)."""
-    risk_at = risk_function(model, arrivals, options, start, target.measure)
+    beds each week needs, starting from the model's beds (:func:`search_beds`); ``simulate``
+    from :func:`bed_simulator`."""
+    risk_at = risk_function(simulate, start, target.measure)
     floor, ceiling = bed_limits(model, arrivals)
     current = int(model.settings.beds)
     tried = {current: risk_at(current)}
@@ -180,9 +211,9 @@ def size_scenario(
     model = ward_model(scenario, history) if model is None else model
     model = model.with_settings(scenario.ward)
     arrivals = forecast.paths
-    quiet = replace(options, progress=None)
-    tried = beds_search(model, arrivals, history.start, target, quiet)
-    risk_at = risk_function(model, arrivals, quiet, history.start, target.measure)
+    simulate = bed_simulator(model, arrivals, replace(options, progress=None))
+    tried = beds_search(model, arrivals, history.start, target, simulate)
+    risk_at = risk_function(simulate, history.start, target.measure)
     floor, ceiling = bed_limits(model, arrivals)
     current = int(scenario.ward.beds)
     answer = int(beds_needed(tried, target.target).max())
@@ -196,11 +227,11 @@ def size_scenario(
     overall = classical_sizes(daily[:, : 7 * weeks].mean(), mean_stay, target.erlang_share)
     sizes = [overall.occupancy_beds, overall.erlang_beds, current]
     for beds in _chart_counts(tried, answer, [b for b in sizes if b <= ceiling], floor):
-        tried[beds] = risk_at(beds)
+        if beds not in tried:
+            tried[beds] = risk_at(beds)
     week_start = pd.date_range(history.start, periods=weeks, freq="7D")
     table = sizing_table(tried, week_start, target, current, per_week, overall)
-    sized = simulate_step(model.with_settings(replace(model.settings, beds=answer)), arrivals,
-                          quiet)  # fmt: skip
+    sized = simulate(answer)
     return SizingResult(
         scenario=scenario,
         target=target,
