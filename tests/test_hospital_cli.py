@@ -64,8 +64,9 @@ def test_compare_moves_beds_between_wards_paired(tmp_path):
                                f'"beds.base" = 16\n[changes.Larch]\n"beds.base" = 32\n',
                      "moved.toml")  # fmt: skip
     out = tmp_path / "out"
+    # Two processes: the chunks in shared memory, the wards' folders written in forked ones.
     result = CliRunner().invoke(cli, ["compare", str(base), str(moved), "--paths", PATHS,
-                                      "--jobs", "1", "--out", str(out)])  # fmt: skip
+                                      "--jobs", "2", "--out", str(out)])  # fmt: skip
     assert result.exit_code == 0, result.output
     glance = pd.read_csv(out / "glance.csv")
     assert list(glance["scenario"]) == ["hospital", "moved"]
