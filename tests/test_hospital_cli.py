@@ -156,3 +156,16 @@ def test_both_engines_write_the_same_hospital_files(tmp_path):
         assert result.exit_code == 0, result.output
     for name in ("hospital.csv", "outlying.csv", "placements.csv", "wards/Larch/weekly.csv"):
         assert (tmp_path / "simpy" / name).read_bytes() == (tmp_path / "fast" / name).read_bytes()
+
+
+def test_wards_whose_records_end_on_different_days_are_refused(tmp_path):
+    from test_hospital_sizing import write_hospital
+
+    path = write_hospital(tmp_path)
+    lines = (tmp_path / "w1.csv").read_text().splitlines()
+    (tmp_path / "w1.csv").write_text("\n".join(lines[:-1]) + "\n")  # one day fewer
+    out = tmp_path / "out"
+    result = CliRunner().invoke(cli, ["run", str(path), "--out", str(out)])
+    assert result.exit_code == 2, result.output
+    assert "histories end on different days (W0 2026-02-24, W1 2026-02-23)" in result.output
+    assert len(result.output.strip().splitlines()) == 1 and not out.exists()
