@@ -310,7 +310,7 @@ def main():
     print_table(f"demo ward with stays as durations (discharge.timing = continuous), {DAYS} "
                 f"days, 10,000 paths (fast only)",
                 ward_case(arrivals, replace(model, discharges=None), 0))  # fmt: skip
-    for beds, paths, simpy_paths in ((30, 1000, 300), (300, 300, 30)):
+    for beds, paths, simpy_paths in ((30, 1000, 300), (300, 300, 60)):
         rate = OCCUPANCY * beds / MEAN_STAY
         title = f"{beds} beds, {rate:.1f}/day (occupancy ~{OCCUPANCY:.0%}), lognormal stays"
         print_table(f"{title}, {DAYS} days", ward_case(*synthetic_inputs(beds, paths), simpy_paths))
