@@ -37,7 +37,6 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 import pandas as pd
-from scipy.optimize import brentq
 
 from planner.errors import PlannerError
 from planner.simulate.logit_fit import newton_fit
@@ -133,6 +132,8 @@ class DischargeTiming:
 
         def gap(shift: float) -> float:
             return replace(self, alpha=self.alpha + shift).mean_stay - nights
+
+        from scipy.optimize import brentq  # only for this lever: a run need not load scipy
 
         low, high = -30.0, 30.0
         if gap(low) < 0 or gap(high) > 0:
