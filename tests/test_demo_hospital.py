@@ -10,8 +10,6 @@ standard errors.
 
 from __future__ import annotations
 
-import importlib.util
-import sys
 from dataclasses import replace
 from pathlib import Path
 
@@ -19,6 +17,7 @@ import numpy as np
 import pandas as pd
 import pytest
 from click.testing import CliRunner
+from wards import demo_generator
 
 from planner.cli import cli
 from planner.records.census import census_history
@@ -38,17 +37,7 @@ ONE_STREAM = ("Larch", "Rowan")
 Z = 3.0
 
 
-def _generator():
-    spec = importlib.util.spec_from_file_location(
-        "generate_hospital", SCENARIOS / "generate_hospital.py"
-    )
-    module = importlib.util.module_from_spec(spec)
-    sys.modules[spec.name] = module
-    spec.loader.exec_module(module)
-    return module
-
-
-GENERATOR = _generator()
+GENERATOR = demo_generator()
 WARDS = {ward.name: ward for ward in GENERATOR.WARDS}
 
 

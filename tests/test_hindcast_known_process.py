@@ -11,13 +11,12 @@ thresholds on all twelve (mean over the twelve, beds - 2: model 0.049, naive 0.0
 
 from __future__ import annotations
 
-import importlib.util
-import sys
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 import pytest
+from wards import demo_generator
 
 from planner.runs.hindcast import hindcast
 from planner.scenario import load_scenario
@@ -25,20 +24,10 @@ from planner.scenario import load_scenario
 SCENARIOS = Path(__file__).resolve().parents[1] / "scenarios"
 
 
-def _generator():
-    spec = importlib.util.spec_from_file_location(
-        "generate_hospital", SCENARIOS / "generate_hospital.py"
-    )
-    module = importlib.util.module_from_spec(spec)
-    sys.modules[spec.name] = module
-    spec.loader.exec_module(module)
-    return module
-
-
 def _redrawn_ward(folder: Path, seed: int, name: str = "Larch"):
     """The generator's ward ``name`` drawn with ``seed``, its episodes written as a plain file
     and the demo scenario's settings (forecast, stays, beds, rota) read over them."""
-    generator = _generator()
+    generator = demo_generator()
     ward = next(w for w in generator.WARDS if w.name == name)
     days = pd.date_range(generator.FIRST_DAY, generator.LAST_DAY, freq="D")
     rng = np.random.default_rng(np.random.SeedSequence(seed))

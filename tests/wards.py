@@ -55,3 +55,17 @@ def demo_without_sizing(folder):
     path = Path(folder) / "unsized.toml"
     path.write_text(text.replace('episodes = "data/', f'episodes = "{demo / "data"}/'))
     return path
+
+
+def demo_generator():
+    """The demo hospital's generator (scenarios/generate_hospital.py) as a module."""
+    import importlib.util
+    import sys
+    from pathlib import Path
+
+    path = Path(__file__).resolve().parents[1] / "scenarios" / "generate_hospital.py"
+    spec = importlib.util.spec_from_file_location("generate_hospital", path)
+    module = importlib.util.module_from_spec(spec)
+    sys.modules[spec.name] = module
+    spec.loader.exec_module(module)
+    return module
